@@ -1,0 +1,50 @@
+//! spurhound reads exported EMC emission scans, corrects them with a transducer chain, judges
+//! them against published or user limit lines and (stage by stage) attributes what it sees to
+//! the oscillators that made it.
+//!
+//! # Pipeline
+//! `scan` reads a CSV export into a [`Scan`]; `correct` adds the transducer chain (LISN factor,
+//! limiter, cable loss, antenna factor); `limits` supplies limit lines and per-point margins;
+//! [`analyze`] runs every stage in order and returns an [`Analysis`], which `report` renders as
+//! text, JSON or SVG. `synth` renders analyzer traces from declared sources, for demos and for
+//! ground-truth tests.
+//!
+//! # Conventions
+//! - Frequencies are in hertz (`freq_hz`), levels in dBµV (or dBµV/m, dBµA as the scan's
+//!   [`Quantity`] says), level differences in dB.
+//! - `margin_db = limit_dbuv - level_dbuv`; a margin of zero or more passes.
+//! - dBm become dBµV by adding 106.99 dB (50 Ω): 20·log10(√(1 mW · 50 Ω) / 1 µV) = 106.9897.
+//! - Detectors are named as in CISPR 16-1-1: peak, quasi-peak, average (and rms, sample).
+//! - Results are pre-compliance estimates, not a certified measurement.
+//!
+//! # Example (later)
+#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used, clippy::panic))]
+
+pub mod analysis;
+pub mod correct;
+pub mod limits;
+pub mod report;
+pub mod scan;
+pub mod synth;
+pub mod units;
+
+pub use analysis::{Analysis, Context, Verdict, analyze};
+pub use scan::{Detector, Quantity, Role, Scan, ScanMeta};
+
+/// Every error the library returns.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    #[error(transparent)]
+    Scan(#[from] scan::ScanError),
+    #[error(transparent)]
+    Correct(#[from] correct::CorrectError),
+    #[error(transparent)]
+    Limit(#[from] limits::LimitError),
+    #[error(transparent)]
+    Scene(#[from] synth::SceneError),
+    #[error(transparent)]
+    Render(#[from] report::RenderError),
+    #[error(transparent)]
+    Settings(#[from] analysis::SettingsError),
+}

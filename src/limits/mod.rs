@@ -1,0 +1,4 @@
+//! stub
+#[derive(Debug, thiserror::Error)]
+#[error("stub")]
+pub struct LimitError;
