@@ -1,5 +1,515 @@
-//! stub
-#[derive(Debug, thiserror::Error)]
-#[error("stub")]
-pub struct SettingsError;
-pub struct Analysis; pub struct Context; pub struct Verdict; pub fn analyze() {}
+//! `analyze`: every stage, in order, on one screen.
+//!
+//! 1. correct the DUT scan and each ambient scan with the transducer chain;
+//! 2. margins of the corrected DUT trace to every limit, and of each ambient trace;
+//! 3. setup checks (detector, RBW, quantity, ambient near the limit) as warnings;
+//! 4. peaks, families and their attribution (filled by the attribution stages; empty for now);
+//! 5. the verdict.
+
+use crate::correct::TransducerChain;
+use crate::limits::{Limit, Margins, margins};
+use crate::scan::{Detector, Scan};
+use crate::units::Quantity;
+use serde::Serialize;
+
+/// Ambient closer than this to the limit may mask the DUT (ANSI C63.4 §5.1.2 treats the
+/// ambient; the 6 dB figure is common practice).
+pub const AMBIENT_HEADROOM_DB: f64 = 6.0;
+
+/// Everything besides the DUT scan that an analysis needs.
+#[derive(Debug, Clone, Default)]
+pub struct Context {
+    /// Limits to judge against; the first is the report's main limit.
+    pub limits: Vec<Limit>,
+    /// Ambient scans (DUT off), uncorrected; the chain is applied to them too.
+    pub ambient: Vec<Scan>,
+    /// Corrections added to every scan.
+    pub transducers: TransducerChain,
+}
+
+/// Whether a peak is narrowband (a line) or broadband (wider than the RBW allows).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Bandwidth {
+    Narrowband,
+    Broadband,
+}
+
+/// Where an emission comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Origin {
+    Dut,
+    Ambient,
+    Mixed,
+    /// No ambient scan was given.
+    Unknown,
+}
+
+/// What kind of oscillator made a family.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Kind {
+    Switching,
+    Clock,
+    Lighting,
+    Broadcast,
+    Other,
+}
+
+/// One emission found in the DUT trace.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Peak {
+    pub freq_hz: f64,
+    pub level_dbuv: f64,
+    pub limit_dbuv: Option<f64>,
+    pub margin_db: Option<f64>,
+    pub bandwidth: Bandwidth,
+    pub origin: Origin,
+    /// Index into [`Analysis::families`] (its `id`).
+    pub family: Option<usize>,
+}
+
+/// A harmonic family: one oscillator's lines.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Family {
+    pub id: usize,
+    pub fundamental_hz: f64,
+    pub fundamental_sigma_hz: f64,
+    pub harmonics: Vec<u32>,
+    pub kind: Kind,
+    pub origin: Origin,
+    pub worst_margin_db: Option<f64>,
+    /// 1 = first to fix.
+    pub rank: usize,
+    pub remedies: Vec<String>,
+}
+
+/// A check the user should read: a stable code and a sentence with the number and the fix.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Warning {
+    pub code: &'static str,
+    pub message: String,
+}
+
+/// The trace judged against one limit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LimitResult {
+    pub limit: Limit,
+    pub margins: Margins,
+}
+
+/// The overall verdict of the measured trace against every given limit.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Verdict {
+    /// `None` when no limit was given or no point lies in a limit's range.
+    pub pass: Option<bool>,
+    pub worst_margin_db: Option<f64>,
+    pub worst_freq_hz: Option<f64>,
+    /// The limit that gave the worst margin.
+    pub worst_limit: Option<String>,
+}
+
+/// An ambient scan after correction, with its margins to the main limit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AmbientResult {
+    pub scan: Scan,
+    pub margins: Option<Margins>,
+    /// Frequency ranges where the ambient is within [`AMBIENT_HEADROOM_DB`] of the main limit:
+    /// `(start_hz, stop_hz, smallest margin)`.
+    pub near_limit: Vec<(f64, f64, f64)>,
+}
+
+/// The result of [`analyze`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Analysis {
+    /// The DUT scan after correction.
+    pub scan: Scan,
+    pub ambient: Vec<AmbientResult>,
+    pub limits: Vec<LimitResult>,
+    pub peaks: Vec<Peak>,
+    pub families: Vec<Family>,
+    pub verdict: Verdict,
+    pub warnings: Vec<Warning>,
+}
+
+/// What can be wrong with the settings of an analysis.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum SettingsError {
+    #[error("RBW must be positive, got {given_hz} Hz")]
+    RbwNotPositive { given_hz: f64 },
+    #[error(
+        "ambient scan {ambient} measures {ambient_unit} but the DUT scan measures {dut_unit}; give both the same transducers"
+    )]
+    AmbientQuantityDiffers {
+        ambient: String,
+        ambient_unit: String,
+        dut_unit: String,
+    },
+}
+
+/// Runs every stage on `scan` with `ctx`.
+///
+/// # Errors
+/// [`crate::Error::Correct`] when a transducer does not cover a scan,
+/// [`crate::Error::Settings`] when an ambient scan measures another quantity.
+pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
+    let dut = ctx.transducers.apply(scan)?;
+    let ambient = correct_ambient(&dut, ctx)?;
+    let limits: Vec<LimitResult> = ctx
+        .limits
+        .iter()
+        .map(|l| LimitResult {
+            limit: l.clone(),
+            margins: margins(&dut, l),
+        })
+        .collect();
+    let verdict = verdict(&limits);
+    let mut warnings = Vec::new();
+    check_setup(&dut, &ctx.limits, &limits, &mut warnings);
+    check_ambient(&dut, &ambient, &mut warnings);
+    Ok(Analysis {
+        scan: dut,
+        ambient,
+        limits,
+        peaks: Vec::new(),
+        families: Vec::new(),
+        verdict,
+        warnings,
+    })
+}
+
+fn correct_ambient(dut: &Scan, ctx: &Context) -> Result<Vec<AmbientResult>, crate::Error> {
+    let main = ctx.limits.first();
+    let mut out = Vec::with_capacity(ctx.ambient.len());
+    for a in &ctx.ambient {
+        let scan = ctx.transducers.apply(a)?;
+        if scan.meta.quantity != dut.meta.quantity {
+            return Err(SettingsError::AmbientQuantityDiffers {
+                ambient: scan.label(),
+                ambient_unit: scan.meta.quantity.unit().to_string(),
+                dut_unit: dut.meta.quantity.unit().to_string(),
+            }
+            .into());
+        }
+        let m = main.map(|l| margins(&scan, l));
+        let near_limit = m.as_ref().map(|m| near_limit(&scan, m)).unwrap_or_default();
+        out.push(AmbientResult {
+            scan,
+            margins: m,
+            near_limit,
+        });
+    }
+    Ok(out)
+}
+
+/// Runs of points whose margin is below [`AMBIENT_HEADROOM_DB`].
+fn near_limit(scan: &Scan, m: &Margins) -> Vec<(f64, f64, f64)> {
+    let mut runs: Vec<(f64, f64, f64)> = Vec::new();
+    let mut open = false;
+    for (i, margin) in m.margin_db.iter().enumerate() {
+        match margin {
+            Some(x) if *x < AMBIENT_HEADROOM_DB => {
+                let f = scan.freq_hz[i];
+                match runs.last_mut() {
+                    Some(run) if open => {
+                        run.1 = f;
+                        run.2 = run.2.min(*x);
+                    }
+                    _ => runs.push((f, f, *x)),
+                }
+                open = true;
+            }
+            _ => open = false,
+        }
+    }
+    runs
+}
+
+fn verdict(limits: &[LimitResult]) -> Verdict {
+    let mut v = Verdict {
+        pass: None,
+        worst_margin_db: None,
+        worst_freq_hz: None,
+        worst_limit: None,
+    };
+    for r in limits {
+        let Some(w) = r.margins.worst else { continue };
+        v.pass = Some(v.pass.unwrap_or(true) && w.margin_db >= 0.0);
+        if v.worst_margin_db.is_none_or(|m| w.margin_db < m) {
+            v.worst_margin_db = Some(w.margin_db);
+            v.worst_freq_hz = Some(w.freq_hz);
+            v.worst_limit = Some(r.limit.name.clone());
+        }
+    }
+    v
+}
+
+/// CISPR 16-1-1 measuring-receiver bands: (start Hz, stop Hz, 6 dB RBW Hz, band name).
+pub const CISPR_BANDS: [(f64, f64, f64, &str); 3] = [
+    (9e3, 150e3, 200.0, "A"),
+    (150e3, 30e6, 9e3, "B"),
+    (30e6, 1e9, 120e3, "C/D"),
+];
+
+fn check_setup(dut: &Scan, given: &[Limit], results: &[LimitResult], warnings: &mut Vec<Warning>) {
+    if given.is_empty() {
+        warnings.push(Warning { code: "no-limit", message: "no limit given: margins and verdict need --limit NAME|FILE (see `spurhound limits`)".into() });
+    }
+    for r in results {
+        let l = &r.limit;
+        if r.margins.covered == 0 {
+            let (a, b) = l.range_hz();
+            warnings.push(Warning {
+                code: "limit-out-of-range",
+                message: format!(
+                    "no scan point lies in the range of {} ({} to {}); check the frequency unit",
+                    l.name,
+                    fmt_hz(a),
+                    fmt_hz(b)
+                ),
+            });
+        }
+        if l.quantity != dut.meta.quantity {
+            warnings.push(Warning {
+                code: "quantity-mismatch",
+                message: format!(
+                    "the scan is in {} but {} bounds {}; add the LISN factor or antenna factor with --transducer",
+                    dut.meta.quantity.unit(),
+                    l.name,
+                    l.quantity.unit()
+                ),
+            });
+        }
+        check_detector(dut.meta.detector, l, warnings);
+    }
+    check_rbw(dut, warnings);
+}
+
+fn check_detector(scan_det: Option<Detector>, l: &Limit, warnings: &mut Vec<Warning>) {
+    match scan_det {
+        None => warnings.push(Warning {
+            code: "detector-unknown",
+            message: format!("the scan does not state its detector; {} is a {} limit (pass --detector)", l.name, l.detector),
+        }),
+        Some(Detector::Peak) if l.detector != Detector::Peak => warnings.push(Warning {
+            code: "peak-vs-weighted",
+            message: format!(
+                "peak readings judged against the {} limit {}: a pass holds, a failure may still pass when re-measured with the {} detector",
+                l.detector, l.name, l.detector
+            ),
+        }),
+        Some(d) if d != l.detector && weight(d) < weight(l.detector) => warnings.push(Warning {
+            code: "detector-below-limit",
+            message: format!(
+                "{} readings judged against the {} limit {}: {} reads at or below {}, so a pass here does not prove a pass",
+                d, l.detector, l.name, d, l.detector
+            ),
+        }),
+        _ => {}
+    }
+}
+
+/// Detector order for any signal: peak ≥ quasi-peak ≥ average (fact of the trade); rms lies
+/// between quasi-peak and average for impulsive signals (CISPR 16-1-1, from memory).
+fn weight(d: Detector) -> u8 {
+    match d {
+        Detector::Peak => 4,
+        Detector::QuasiPeak => 3,
+        Detector::Rms => 2,
+        Detector::Average => 1,
+        Detector::Sample => 0,
+    }
+}
+
+fn check_rbw(dut: &Scan, warnings: &mut Vec<Warning>) {
+    let (start, stop) = dut.span_hz();
+    let Some(rbw) = dut.meta.rbw_hz else {
+        warnings.push(Warning {
+            code: "rbw-unknown",
+            message: "the scan does not state its RBW (pass --rbw HZ)".into(),
+        });
+        return;
+    };
+    for (a, b, want, band) in CISPR_BANDS {
+        let overlap = start.max(a) < stop.min(b);
+        if overlap && (rbw / want > 1.5 || rbw / want < 1.0 / 1.5) {
+            warnings.push(Warning {
+                code: "rbw-not-cispr",
+                message: format!(
+                    "RBW {} in CISPR 16-1-1 band {band} ({} to {}), which uses {} (6 dB): levels of broadband emissions will differ",
+                    fmt_hz(rbw),
+                    fmt_hz(a),
+                    fmt_hz(b),
+                    fmt_hz(want)
+                ),
+            });
+        }
+    }
+}
+
+fn check_ambient(dut: &Scan, ambient: &[AmbientResult], warnings: &mut Vec<Warning>) {
+    if ambient.is_empty() {
+        warnings.push(Warning {
+            code: "no-ambient",
+            message: "no ambient scan given: peaks cannot be told from the lab's ambient (take a scan with the DUT off and pass --ambient)".into(),
+        });
+        return;
+    }
+    for a in ambient {
+        if let Some(&(s, e, m)) = a.near_limit.iter().min_by(|x, y| x.2.total_cmp(&y.2)) {
+            warnings.push(Warning {
+                code: "ambient-near-limit",
+                message: format!(
+                    "ambient {} comes within {AMBIENT_HEADROOM_DB} dB of the limit in {} range(s), worst {:.1} dB at {} to {}: the DUT cannot be judged there",
+                    a.scan.label(),
+                    a.near_limit.len(),
+                    m,
+                    fmt_hz(s),
+                    fmt_hz(e)
+                ),
+            });
+        }
+        if a.scan.meta.rbw_hz.is_some()
+            && dut.meta.rbw_hz.is_some()
+            && a.scan.meta.rbw_hz != dut.meta.rbw_hz
+        {
+            warnings.push(Warning {
+                code: "ambient-rbw-differs",
+                message: format!("ambient {} was taken with another RBW than the DUT scan; compare like with like", a.scan.label()),
+            });
+        }
+        let (ds, de) = dut.span_hz();
+        let (as_, ae) = a.scan.span_hz();
+        if as_ > ds * (1.0 + 1e-9) || ae < de * (1.0 - 1e-9) {
+            warnings.push(Warning {
+                code: "ambient-span",
+                message: format!(
+                    "ambient {} ({} to {}) does not cover the DUT scan ({} to {})",
+                    a.scan.label(),
+                    fmt_hz(as_),
+                    fmt_hz(ae),
+                    fmt_hz(ds),
+                    fmt_hz(de)
+                ),
+            });
+        }
+    }
+}
+
+/// A frequency for people: `150 kHz`, `1.234 MHz`.
+pub fn fmt_hz(freq_hz: f64) -> String {
+    let (v, unit) = if freq_hz >= 1e9 {
+        (freq_hz / 1e9, "GHz")
+    } else if freq_hz >= 1e6 {
+        (freq_hz / 1e6, "MHz")
+    } else if freq_hz >= 1e3 {
+        (freq_hz / 1e3, "kHz")
+    } else {
+        (freq_hz, "Hz")
+    };
+    let s = format!("{v:.4}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    format!("{s} {unit}")
+}
+
+impl Analysis {
+    /// The quantity of the corrected DUT trace.
+    pub fn quantity(&self) -> Quantity {
+        self.scan.meta.quantity
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scan::ScanMeta;
+
+    fn scan(levels: &[f64], det: Option<Detector>) -> Scan {
+        let f: Vec<f64> = (0..levels.len())
+            .map(|i| 150e3 * 2f64.powi(i as i32))
+            .collect();
+        let meta = ScanMeta {
+            detector: det,
+            rbw_hz: Some(9e3),
+            ..ScanMeta::default()
+        };
+        Scan::new(f, levels.to_vec(), meta).unwrap()
+    }
+
+    #[test]
+    fn verdict_takes_the_worst_limit() {
+        let qp = crate::limits::builtin("cispr32-b-qp").unwrap();
+        let av = crate::limits::builtin("cispr32-b-av").unwrap();
+        let ctx = Context {
+            limits: vec![qp, av],
+            ..Context::default()
+        };
+        // 60 dBµV at 150 kHz: QP margin +6, AV margin −4 (source: CISPR 32 Class B, 66/56 dBµV at 150 kHz)
+        let a = analyze(&scan(&[60.0, 30.0], Some(Detector::Peak)), &ctx).unwrap();
+        assert_eq!(a.verdict.pass, Some(false));
+        assert_eq!(a.verdict.worst_margin_db, Some(-4.0));
+        assert_eq!(a.verdict.worst_limit.as_deref(), Some("cispr32-b-av"));
+    }
+
+    #[test]
+    fn no_limit_gives_no_verdict() {
+        let a = analyze(
+            &scan(&[60.0, 30.0], Some(Detector::Peak)),
+            &Context::default(),
+        )
+        .unwrap();
+        assert_eq!(a.verdict.pass, None);
+        assert!(a.warnings.iter().any(|w| w.code == "no-limit"));
+        assert!(a.warnings.iter().any(|w| w.code == "no-ambient"));
+    }
+
+    #[test]
+    fn average_scan_against_qp_limit_is_flagged() {
+        let qp = crate::limits::builtin("cispr32-b-qp").unwrap();
+        let ctx = Context {
+            limits: vec![qp],
+            ..Context::default()
+        };
+        let a = analyze(&scan(&[40.0, 30.0], Some(Detector::Average)), &ctx).unwrap();
+        assert!(a.warnings.iter().any(|w| w.code == "detector-below-limit"));
+        let a = analyze(&scan(&[40.0, 30.0], Some(Detector::QuasiPeak)), &ctx).unwrap();
+        assert!(
+            !a.warnings
+                .iter()
+                .any(|w| w.code.starts_with("detector") || w.code == "peak-vs-weighted")
+        );
+    }
+
+    #[test]
+    fn ambient_near_the_limit_is_reported() {
+        let qp = crate::limits::builtin("cispr32-b-qp").unwrap();
+        let mut amb = scan(&[62.0, 30.0, 30.0], Some(Detector::Peak));
+        amb.meta.role = crate::scan::Role::Ambient;
+        let ctx = Context {
+            limits: vec![qp],
+            ambient: vec![amb],
+            ..Context::default()
+        };
+        let a = analyze(&scan(&[40.0, 30.0, 30.0], Some(Detector::Peak)), &ctx).unwrap();
+        // 62 dBµV at 150 kHz is 4 dB under the 66 dBµV limit: inside the 6 dB headroom
+        assert_eq!(a.ambient[0].near_limit, vec![(150e3, 150e3, 4.0)]);
+        assert!(a.warnings.iter().any(|w| w.code == "ambient-near-limit"));
+    }
+
+    #[test]
+    fn rbw_outside_cispr_is_flagged() {
+        let mut s = scan(&[40.0, 30.0], Some(Detector::Peak));
+        s.meta.rbw_hz = Some(100e3);
+        let a = analyze(&s, &Context::default()).unwrap();
+        assert!(a.warnings.iter().any(|w| w.code == "rbw-not-cispr"));
+    }
+
+    #[test]
+    fn frequencies_print_for_people() {
+        assert_eq!(fmt_hz(150e3), "150 kHz");
+        assert_eq!(fmt_hz(1.2345e6), "1.2345 MHz");
+        assert_eq!(fmt_hz(30e6), "30 MHz");
+    }
+}

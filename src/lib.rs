@@ -17,8 +17,24 @@
 //! - Detectors are named as in CISPR 16-1-1: peak, quasi-peak, average (and rms, sample).
 //! - Results are pre-compliance estimates, not a certified measurement.
 //!
-//! # Example (later)
-#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used, clippy::panic))]
+//! # Example
+//! ```
+//! use spurhound::{analyze, limits, scan, Context};
+//! let text = "freq_hz,level_dbuv\n150000,70\n200000,50\n1000000,40\n";
+//! let scan = scan::read_scan_str(text, "inline.csv", &scan::ReadOptions::default())?.scan;
+//! let limit = limits::resolve("cispr32-b-qp")?;
+//! let ctx = Context { limits: vec![limit], ..Context::default() };
+//! let analysis = analyze(&scan, &ctx)?;
+//! // 70 dBµV at 150 kHz is 4 dB over the 66 dBµV Class B quasi-peak limit
+//! // (source: CISPR 32 Class B conducted limits, 66 dBµV QP at 150 kHz).
+//! assert_eq!(analysis.verdict.pass, Some(false));
+//! assert_eq!(analysis.verdict.worst_margin_db, Some(-4.0));
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
+#![cfg_attr(
+    not(test),
+    deny(clippy::unwrap_used, clippy::expect_used, clippy::panic)
+)]
 
 pub mod analysis;
 pub mod correct;

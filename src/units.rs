@@ -13,7 +13,9 @@ use std::fmt;
 /// dBµV of 0 dBm in a 50 Ω system.
 ///
 /// # Formula
-///     20·log10(√(1e-3 W · 50 Ω) / 1e-6 V) = 106.9897 dB
+/// ```text
+/// 20·log10(√(1e-3 W · 50 Ω) / 1e-6 V) = 106.9897 dB
+/// ```
 /// # Source
 /// Derived from P = V²/R; the rounded 107 dB is the trade's figure (dBµV = dBm + 107).
 pub const DBM_TO_DBUV_50_OHM: f64 = 106.989_700_043_360_2;
@@ -133,7 +135,10 @@ impl LevelUnit {
             ("dbua", LevelUnit::DbUa),
             ("dbm", LevelUnit::DbM),
         ];
-        ORDER.iter().find(|(name, _)| t.contains(name)).map(|(_, u)| *u)
+        ORDER
+            .iter()
+            .find(|(name, _)| t.contains(name))
+            .map(|(_, u)| *u)
     }
 
     /// The quantity this unit measures.
@@ -148,7 +153,9 @@ impl LevelUnit {
     /// A level in this unit, in the canonical unit of its quantity (dBµV, dBµA or dBµV/m).
     ///
     /// # Formula
-    ///     dBµV = dBm + 106.99 (50 Ω);  dBµV = dBmV + 60
+    /// ```text
+    /// dBµV = dBm + 106.99 (50 Ω);  dBµV = dBmV + 60
+    /// ```
     /// # Source
     /// Derived from the unit definitions (see [`DBM_TO_DBUV_50_OHM`]).
     pub fn to_canonical(self, value: f64) -> f64 {
@@ -222,7 +229,12 @@ mod tests {
 
     #[test]
     fn round_trips_are_identities() {
-        for unit in [LevelUnit::DbUv, LevelUnit::DbM, LevelUnit::DbMv, LevelUnit::DbUvPerM] {
+        for unit in [
+            LevelUnit::DbUv,
+            LevelUnit::DbM,
+            LevelUnit::DbMv,
+            LevelUnit::DbUvPerM,
+        ] {
             let x = 37.25;
             assert!((unit.from_canonical(unit.to_canonical(x)) - x).abs() < 1e-12);
         }
@@ -234,7 +246,10 @@ mod tests {
         assert_eq!(FreqUnit::find_in("freq_hz"), Some(FreqUnit::Hz));
         assert_eq!(FreqUnit::find_in("Frequency"), None);
         assert_eq!(LevelUnit::find_in("Level [dBµV]"), Some(LevelUnit::DbUv));
-        assert_eq!(LevelUnit::find_in("Level dBμV/m"), Some(LevelUnit::DbUvPerM));
+        assert_eq!(
+            LevelUnit::find_in("Level dBμV/m"),
+            Some(LevelUnit::DbUvPerM)
+        );
         assert_eq!(LevelUnit::find_in("dB(uV/m)"), Some(LevelUnit::DbUvPerM));
         assert_eq!(LevelUnit::find_in("level_dbmv"), Some(LevelUnit::DbMv));
         assert_eq!(LevelUnit::find_in("Amplitude (dBm)"), Some(LevelUnit::DbM));

@@ -26,7 +26,15 @@ pub struct ReadOptions {
 
 impl Default for ReadOptions {
     fn default() -> Self {
-        ReadOptions { columns: (0, 1), sort: false, freq_unit: None, level_unit: None, rbw_hz: None, detector: None, role: None }
+        ReadOptions {
+            columns: (0, 1),
+            sort: false,
+            freq_unit: None,
+            level_unit: None,
+            rbw_hz: None,
+            detector: None,
+            role: None,
+        }
     }
 }
 
@@ -36,7 +44,9 @@ impl ReadOptions {
     /// # Errors
     /// [`ScanError::BadColumns`] unless the text is two different positive integers.
     pub fn parse_columns(text: &str) -> Result<(usize, usize), ScanError> {
-        let bad = || ScanError::BadColumns { given: text.to_string() };
+        let bad = || ScanError::BadColumns {
+            given: text.to_string(),
+        };
         let (a, b) = text.split_once(',').ok_or_else(bad)?;
         let a: usize = a.trim().parse().map_err(|_| bad())?;
         let b: usize = b.trim().parse().map_err(|_| bad())?;
@@ -73,9 +83,15 @@ pub struct ReadOutcome {
 ///
 /// # Errors
 /// [`ScanError::Io`] when the file cannot be read, else as [`read_scan_bytes`].
-pub fn read_scan_file(path: &std::path::Path, opts: &ReadOptions) -> Result<ReadOutcome, ScanError> {
+pub fn read_scan_file(
+    path: &std::path::Path,
+    opts: &ReadOptions,
+) -> Result<ReadOutcome, ScanError> {
     let file = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| ScanError::Io { file: file.clone(), reason: e.to_string() })?;
+    let bytes = std::fs::read(path).map_err(|e| ScanError::Io {
+        file: file.clone(),
+        reason: e.to_string(),
+    })?;
     read_scan_bytes(&bytes, &file, opts)
 }
 
@@ -92,7 +108,11 @@ pub fn read_scan_str(text: &str, file: &str, opts: &ReadOptions) -> Result<ReadO
 /// # Errors
 /// Every [`ScanError`] about content: empty file, no numeric rows, fewer than 2 points, a bad
 /// or non-finite number, frequencies not ascending or repeated, contradicting units.
-pub fn read_scan_bytes(bytes: &[u8], file: &str, opts: &ReadOptions) -> Result<ReadOutcome, ScanError> {
+pub fn read_scan_bytes(
+    bytes: &[u8],
+    file: &str,
+    opts: &ReadOptions,
+) -> Result<ReadOutcome, ScanError> {
     let table = read_table(bytes, file, opts.columns)?;
     let mut notes = IngestNotes {
         delimiter: table.delimiter.name().to_string(),
@@ -110,12 +130,19 @@ pub fn read_scan_bytes(bytes: &[u8], file: &str, opts: &ReadOptions) -> Result<R
     for row in &table.rows {
         let freq_hz = freq_unit.to_hz(row.a);
         if freq_hz <= 0.0 {
-            return Err(ScanError::FrequencyNotPositive { file: file.to_string(), line: row.line, freq_hz });
+            return Err(ScanError::FrequencyNotPositive {
+                file: file.to_string(),
+                line: row.line,
+                freq_hz,
+            });
         }
         points.push((row.line, freq_hz, level_unit.to_canonical(row.b)));
     }
     if points.len() < 2 {
-        return Err(ScanError::TooFewPoints { file: file.to_string(), found: points.len() });
+        return Err(ScanError::TooFewPoints {
+            file: file.to_string(),
+            found: points.len(),
+        });
     }
     if opts.sort {
         points.sort_by(|x, y| x.1.total_cmp(&y.1));
@@ -140,16 +167,30 @@ pub fn read_scan_bytes(bytes: &[u8], file: &str, opts: &ReadOptions) -> Result<R
 }
 
 /// Refuses frequencies that repeat or fall; `lines` gives the line of each point.
-pub(crate) fn check_ascending(file: &str, freq_hz: &[f64], lines: &[usize]) -> Result<(), ScanError> {
+pub(crate) fn check_ascending(
+    file: &str,
+    freq_hz: &[f64],
+    lines: &[usize],
+) -> Result<(), ScanError> {
     for i in 1..freq_hz.len() {
         let (prev, cur) = (freq_hz[i - 1], freq_hz[i]);
         let line = lines.get(i).copied().unwrap_or(i + 1);
         if cur == prev {
             let first_line = lines.get(i - 1).copied().unwrap_or(i);
-            return Err(ScanError::DuplicateFrequency { file: file.to_string(), line, first_line, freq_hz: cur });
+            return Err(ScanError::DuplicateFrequency {
+                file: file.to_string(),
+                line,
+                first_line,
+                freq_hz: cur,
+            });
         }
         if cur < prev {
-            return Err(ScanError::NotAscending { file: file.to_string(), line, freq_hz: cur, previous_hz: prev });
+            return Err(ScanError::NotAscending {
+                file: file.to_string(),
+                line,
+                freq_hz: cur,
+                previous_hz: prev,
+            });
         }
     }
     Ok(())
@@ -157,7 +198,10 @@ pub(crate) fn check_ascending(file: &str, freq_hz: &[f64], lines: &[usize]) -> R
 
 /// The key of a setting with case, blanks and punctuation removed: `Res BW [kHz]` -> `resbwkhz`.
 fn norm_key(key: &str) -> String {
-    key.chars().filter(|c| c.is_ascii_alphanumeric()).collect::<String>().to_ascii_lowercase()
+    key.chars()
+        .filter(|c| c.is_ascii_alphanumeric())
+        .collect::<String>()
+        .to_ascii_lowercase()
 }
 
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -175,7 +219,14 @@ enum Field {
 fn field_of(key: &str) -> Option<Field> {
     let k = norm_key(key);
     let starts = |prefixes: &[&str]| prefixes.iter().any(|p| k.starts_with(p));
-    if starts(&["rbw", "resbw", "resolutionb", "resbandwidth", "ifbw", "ifbandwidth"]) {
+    if starts(&[
+        "rbw",
+        "resbw",
+        "resolutionb",
+        "resbandwidth",
+        "ifbw",
+        "ifbandwidth",
+    ]) {
         Some(Field::Rbw)
     } else if starts(&["vbw", "videobw", "videoband"]) {
         Some(Field::Vbw)
@@ -183,10 +234,28 @@ fn field_of(key: &str) -> Option<Field> {
         Some(Field::Detector)
     } else if matches!(
         k.as_str(),
-        "unit" | "units" | "yunit" | "yunits" | "yaxisunit" | "yaxisunits" | "levelunit" | "levelunits" | "amplitudeunit" | "amplitudeunits"
+        "unit"
+            | "units"
+            | "yunit"
+            | "yunits"
+            | "yaxisunit"
+            | "yaxisunits"
+            | "levelunit"
+            | "levelunits"
+            | "amplitudeunit"
+            | "amplitudeunits"
     ) {
         Some(Field::LevelUnit)
-    } else if matches!(k.as_str(), "frequnit" | "frequencyunit" | "frequencyunits" | "xunit" | "xunits" | "xaxisunit" | "xaxisunits") {
+    } else if matches!(
+        k.as_str(),
+        "frequnit"
+            | "frequencyunit"
+            | "frequencyunits"
+            | "xunit"
+            | "xunits"
+            | "xaxisunit"
+            | "xaxisunits"
+    ) {
         Some(Field::FreqUnit)
     } else if k == "role" {
         Some(Field::Role)
@@ -201,22 +270,31 @@ fn field_of(key: &str) -> Option<Field> {
 /// (`RBW [kHz]`, `rbw_hz`). A bare number is in Hz.
 pub(crate) fn parse_freq_value(key: &str, value: &str) -> Option<f64> {
     let v = value.trim();
-    let split = v.find(|c: char| c.is_ascii_alphabetic() && c != 'e' && c != 'E').unwrap_or(v.len());
+    let split = v
+        .find(|c: char| c.is_ascii_alphabetic() && c != 'e' && c != 'E')
+        .unwrap_or(v.len());
     let (num, unit) = v.split_at(split);
     let num = super::table::parse_number(num.trim(), num.contains(',') && !num.contains('.'))?;
     if !num.is_finite() {
         return None;
     }
-    let unit = FreqUnit::find_in(unit).or_else(|| FreqUnit::find_in(key)).unwrap_or(FreqUnit::Hz);
+    let unit = FreqUnit::find_in(unit)
+        .or_else(|| FreqUnit::find_in(key))
+        .unwrap_or(FreqUnit::Hz);
     Some(unit.to_hz(num))
 }
 
 fn settings_for(table: &Table, field: Field) -> impl Iterator<Item = &Setting> {
-    table.settings.iter().filter(move |s| field_of(&s.key) == Some(field))
+    table
+        .settings
+        .iter()
+        .filter(move |s| field_of(&s.key) == Some(field))
 }
 
 fn freq_unit_stated(table: &Table, opts: &ReadOptions) -> bool {
-    opts.freq_unit.is_some() || header_freq_unit(table).is_some() || settings_for(table, Field::FreqUnit).next().is_some()
+    opts.freq_unit.is_some()
+        || header_freq_unit(table).is_some()
+        || settings_for(table, Field::FreqUnit).next().is_some()
 }
 
 fn header_freq_unit(table: &Table) -> Option<(usize, FreqUnit)> {
@@ -233,7 +311,13 @@ fn agree<U: Copy + PartialEq + std::fmt::Display>(
 ) -> Result<Option<U>, ScanError> {
     if let Some(&(line_a, a)) = stated.first() {
         if let Some(&(line_b, b)) = stated.iter().find(|(_, u)| *u != a) {
-            return Err(ScanError::UnitConflict { file: file.to_string(), line_a, unit_a: a.to_string(), line_b, unit_b: b.to_string() });
+            return Err(ScanError::UnitConflict {
+                file: file.to_string(),
+                line_a,
+                unit_a: a.to_string(),
+                line_b,
+                unit_b: b.to_string(),
+            });
         }
         if let Some(f) = flag.filter(|f| *f != a) {
             return Err(ScanError::UnitContradictsFlag {
@@ -249,19 +333,36 @@ fn agree<U: Copy + PartialEq + std::fmt::Display>(
     Ok(flag)
 }
 
-fn resolve_freq_unit(table: &Table, file: &str, opts: &ReadOptions, notes: &mut IngestNotes) -> Result<FreqUnit, ScanError> {
+fn resolve_freq_unit(
+    table: &Table,
+    file: &str,
+    opts: &ReadOptions,
+    notes: &mut IngestNotes,
+) -> Result<FreqUnit, ScanError> {
     let mut stated: Vec<(usize, FreqUnit)> = header_freq_unit(table).into_iter().collect();
-    stated.extend(settings_for(table, Field::FreqUnit).filter_map(|s| Some((s.line, FreqUnit::find_in(&s.value)?))));
+    stated.extend(
+        settings_for(table, Field::FreqUnit)
+            .filter_map(|s| Some((s.line, FreqUnit::find_in(&s.value)?))),
+    );
     let unit = agree(file, &stated, opts.freq_unit, "--freq-unit")?;
     match (unit, stated.first()) {
         (Some(u), Some((line, _))) => notes.read.push(format!("frequency unit {u} (line {line})")),
-        (Some(u), None) => notes.read.push(format!("frequency unit {u} (from the flag)")),
-        (None, _) => notes.read.push("frequency unit not stated: read as Hz".to_string()),
+        (Some(u), None) => notes
+            .read
+            .push(format!("frequency unit {u} (from the flag)")),
+        (None, _) => notes
+            .read
+            .push("frequency unit not stated: read as Hz".to_string()),
     }
     Ok(unit.unwrap_or(FreqUnit::Hz))
 }
 
-fn resolve_level_unit(table: &Table, file: &str, opts: &ReadOptions, notes: &mut IngestNotes) -> Result<LevelUnit, ScanError> {
+fn resolve_level_unit(
+    table: &Table,
+    file: &str,
+    opts: &ReadOptions,
+    notes: &mut IngestNotes,
+) -> Result<LevelUnit, ScanError> {
     let mut stated: Vec<(usize, LevelUnit)> = Vec::new();
     if let Some((line, cells)) = &table.header {
         let level_cell = cells.get(opts.columns.1).or(cells.last());
@@ -269,28 +370,51 @@ fn resolve_level_unit(table: &Table, file: &str, opts: &ReadOptions, notes: &mut
             stated.push((*line, u));
         }
     }
-    stated.extend(settings_for(table, Field::LevelUnit).filter_map(|s| Some((s.line, LevelUnit::find_in(&s.value)?))));
+    stated.extend(
+        settings_for(table, Field::LevelUnit)
+            .filter_map(|s| Some((s.line, LevelUnit::find_in(&s.value)?))),
+    );
     let unit = agree(file, &stated, opts.level_unit, "--level-unit")?;
     match (unit, stated.first()) {
         (Some(u), Some((line, _))) => notes.read.push(format!("level unit {u} (line {line})")),
         (Some(u), None) => notes.read.push(format!("level unit {u} (from the flag)")),
-        (None, _) => notes.read.push("level unit not stated: read as dBuV".to_string()),
+        (None, _) => notes
+            .read
+            .push("level unit not stated: read as dBuV".to_string()),
     }
     Ok(unit.unwrap_or(LevelUnit::DbUv))
 }
 
 fn bad_meta(file: &str, s: &Setting, what: &str, expected: &str) -> ScanError {
-    ScanError::BadMetadata { file: file.to_string(), line: s.line, what: what.to_string(), text: s.value.clone(), expected: expected.to_string() }
+    ScanError::BadMetadata {
+        file: file.to_string(),
+        line: s.line,
+        what: what.to_string(),
+        text: s.value.clone(),
+        expected: expected.to_string(),
+    }
 }
 
-fn read_meta(table: &Table, file: &str, opts: &ReadOptions, level_unit: LevelUnit, notes: &mut IngestNotes) -> Result<ScanMeta, ScanError> {
-    let mut meta = ScanMeta { source: Some(file.to_string()), quantity: level_unit.quantity(), ..ScanMeta::default() };
+fn read_meta(
+    table: &Table,
+    file: &str,
+    opts: &ReadOptions,
+    level_unit: LevelUnit,
+    notes: &mut IngestNotes,
+) -> Result<ScanMeta, ScanError> {
+    let mut meta = ScanMeta {
+        source: Some(file.to_string()),
+        quantity: level_unit.quantity(),
+        ..ScanMeta::default()
+    };
     for s in &table.settings {
         let Some(field) = field_of(&s.key) else {
             if s.comment {
                 meta.extra.push((s.key.clone(), s.value.clone()));
             } else {
-                notes.skipped.push((s.line, format!("{},{}", s.key, s.value)));
+                notes
+                    .skipped
+                    .push((s.line, format!("{},{}", s.key, s.value)));
             }
             continue;
         };
@@ -298,19 +422,38 @@ fn read_meta(table: &Table, file: &str, opts: &ReadOptions, level_unit: LevelUni
             Field::Rbw | Field::Vbw => {
                 let hz = parse_freq_value(&s.key, &s.value)
                     .filter(|v| *v > 0.0)
-                    .ok_or_else(|| bad_meta(file, s, "bandwidth", "a positive frequency such as `9 kHz` or `9000`"))?;
-                let slot = if field == Field::Rbw { &mut meta.rbw_hz } else { &mut meta.vbw_hz };
+                    .ok_or_else(|| {
+                        bad_meta(
+                            file,
+                            s,
+                            "bandwidth",
+                            "a positive frequency such as `9 kHz` or `9000`",
+                        )
+                    })?;
+                let slot = if field == Field::Rbw {
+                    &mut meta.rbw_hz
+                } else {
+                    &mut meta.vbw_hz
+                };
                 *slot = Some(hz);
                 let name = if field == Field::Rbw { "RBW" } else { "VBW" };
                 notes.read.push(format!("{name} {hz} Hz (line {})", s.line));
             }
             Field::Detector => {
-                let det = Detector::parse(&s.value).ok_or_else(|| bad_meta(file, s, "detector", "peak, quasi-peak, average, rms or sample"))?;
+                let det = Detector::parse(&s.value).ok_or_else(|| {
+                    bad_meta(
+                        file,
+                        s,
+                        "detector",
+                        "peak, quasi-peak, average, rms or sample",
+                    )
+                })?;
                 meta.detector = Some(det);
                 notes.read.push(format!("detector {det} (line {})", s.line));
             }
             Field::Role => {
-                meta.role = Role::parse(&s.value).ok_or_else(|| bad_meta(file, s, "role", "dut, ambient or floor"))?;
+                meta.role = Role::parse(&s.value)
+                    .ok_or_else(|| bad_meta(file, s, "role", "dut, ambient or floor"))?;
             }
             Field::Title => meta.title = Some(s.value.clone()),
             Field::LevelUnit | Field::FreqUnit => {}
@@ -323,13 +466,18 @@ fn read_meta(table: &Table, file: &str, opts: &ReadOptions, level_unit: LevelUni
 fn apply_flags(meta: &mut ScanMeta, opts: &ReadOptions, notes: &mut IngestNotes) {
     if let Some(rbw) = opts.rbw_hz {
         if meta.rbw_hz.is_some_and(|r| r != rbw) {
-            notes.read.push(format!("RBW {rbw} Hz from --rbw replaces the file's {} Hz", meta.rbw_hz.unwrap_or(0.0)));
+            notes.read.push(format!(
+                "RBW {rbw} Hz from --rbw replaces the file's {} Hz",
+                meta.rbw_hz.unwrap_or(0.0)
+            ));
         }
         meta.rbw_hz = Some(rbw);
     }
     if let Some(det) = opts.detector {
         if meta.detector.is_some_and(|d| d != det) {
-            notes.read.push(format!("detector {det} from --detector replaces the file's"));
+            notes.read.push(format!(
+                "detector {det} from --detector replaces the file's"
+            ));
         }
         meta.detector = Some(det);
     }
@@ -415,7 +563,11 @@ pub fn write_scan_csv(scan: &Scan, opts: &WriteOptions) -> String {
         }
     }
     if opts.header {
-        let _ = writeln!(out, "Frequency [{}]{sep}Level [{}]", opts.freq_unit, opts.level_unit);
+        let _ = writeln!(
+            out,
+            "Frequency [{}]{sep}Level [{}]",
+            opts.freq_unit, opts.level_unit
+        );
     }
     let scale = opts.freq_unit.scale();
     for (f, l) in scan.freq_hz.iter().zip(scan.level_dbuv.iter()) {
@@ -424,6 +576,26 @@ pub fn write_scan_csv(scan: &Scan, opts: &WriteOptions) -> String {
         let _ = writeln!(out, "{f}{sep}{l}");
     }
     out
+}
+
+/// Reads an `--rbw` value: `9000`, `9k`, `9kHz`, `120 kHz`, `1M`.
+pub fn parse_rbw_flag(text: &str) -> Option<f64> {
+    let t = text.trim();
+    let lower = t.to_ascii_lowercase();
+    let expanded = match lower
+        .strip_suffix('k')
+        .or_else(|| lower.strip_suffix("khz"))
+    {
+        Some(n) => format!("{n} kHz"),
+        None => match lower
+            .strip_suffix('m')
+            .or_else(|| lower.strip_suffix("mhz"))
+        {
+            Some(n) => format!("{n} MHz"),
+            None => lower,
+        },
+    };
+    parse_freq_value("", &expanded).filter(|v| *v > 0.0)
 }
 
 #[cfg(test)]
@@ -444,15 +616,25 @@ mod tests {
 
     #[test]
     fn flag_contradicting_header_is_an_error() {
-        let opts = ReadOptions { level_unit: Some(LevelUnit::DbUv), ..ReadOptions::default() };
+        let opts = ReadOptions {
+            level_unit: Some(LevelUnit::DbUv),
+            ..ReadOptions::default()
+        };
         let err = read_scan_str("f_hz,l_dbm\n1,2\n3,4\n", "t.csv", &opts).unwrap_err();
-        assert!(matches!(err, ScanError::UnitContradictsFlag { line: 1, .. }), "{err}");
+        assert!(
+            matches!(err, ScanError::UnitContradictsFlag { line: 1, .. }),
+            "{err}"
+        );
         assert!(err.to_string().contains("--level-unit"));
     }
 
     #[test]
     fn flag_fills_in_when_file_is_silent() {
-        let opts = ReadOptions { freq_unit: Some(FreqUnit::KHz), level_unit: Some(LevelUnit::DbMv), ..ReadOptions::default() };
+        let opts = ReadOptions {
+            freq_unit: Some(FreqUnit::KHz),
+            level_unit: Some(LevelUnit::DbMv),
+            ..ReadOptions::default()
+        };
         let r = read_scan_str("150,0\n200,1\n", "t.csv", &opts).unwrap();
         assert_eq!(r.scan.freq_hz[0], 150e3);
         assert_eq!(r.scan.level_dbuv[0], 60.0); // source: common practice, 0 dBmV = 60 dBµV
@@ -484,10 +666,26 @@ mod tests {
     #[test]
     fn order_and_duplicates() {
         let err = read("1,2\n3,4\n2,5\n").unwrap_err();
-        assert!(matches!(err, ScanError::NotAscending { line: 3, .. }), "{err}");
+        assert!(
+            matches!(err, ScanError::NotAscending { line: 3, .. }),
+            "{err}"
+        );
         let err = read("1,2\n3,4\n3,5\n").unwrap_err();
-        assert!(matches!(err, ScanError::DuplicateFrequency { line: 3, first_line: 2, .. }), "{err}");
-        let opts = ReadOptions { sort: true, ..ReadOptions::default() };
+        assert!(
+            matches!(
+                err,
+                ScanError::DuplicateFrequency {
+                    line: 3,
+                    first_line: 2,
+                    ..
+                }
+            ),
+            "{err}"
+        );
+        let opts = ReadOptions {
+            sort: true,
+            ..ReadOptions::default()
+        };
         let r = read_scan_str("1,2\n3,4\n2,5\n", "t.csv", &opts).unwrap();
         assert_eq!(r.scan.freq_hz.to_vec(), vec![1.0, 2.0, 3.0]);
         assert_eq!(r.scan.level_dbuv.to_vec(), vec![2.0, 5.0, 4.0]);
@@ -495,13 +693,22 @@ mod tests {
 
     #[test]
     fn one_point_is_too_few() {
-        assert!(matches!(read("1,2\n").unwrap_err(), ScanError::TooFewPoints { found: 1, .. }));
+        assert!(matches!(
+            read("1,2\n").unwrap_err(),
+            ScanError::TooFewPoints { found: 1, .. }
+        ));
     }
 
     #[test]
     fn write_then_read_is_identity() {
-        let scan = read("# rbw_hz = 9000\n150000,40.5\n160000,41.25\n").unwrap().scan;
-        for (delimiter, decimal_comma) in [(Delimiter::Comma, false), (Delimiter::Semicolon, true), (Delimiter::Tab, true)] {
+        let scan = read("# rbw_hz = 9000\n150000,40.5\n160000,41.25\n")
+            .unwrap()
+            .scan;
+        for (delimiter, decimal_comma) in [
+            (Delimiter::Comma, false),
+            (Delimiter::Semicolon, true),
+            (Delimiter::Tab, true),
+        ] {
             for instrument_preamble in [false, true] {
                 let opts = WriteOptions {
                     freq_unit: FreqUnit::MHz,
@@ -512,7 +719,9 @@ mod tests {
                     header: true,
                 };
                 let text = write_scan_csv(&scan, &opts);
-                let back = read_scan_str(&text, "t.csv", &ReadOptions::default()).unwrap().scan;
+                let back = read_scan_str(&text, "t.csv", &ReadOptions::default())
+                    .unwrap()
+                    .scan;
                 for (a, b) in back.level_dbuv.iter().zip(scan.level_dbuv.iter()) {
                     assert!((a - b).abs() < 1e-3, "{text}");
                 }

@@ -16,7 +16,9 @@
 pub mod csv;
 pub mod table;
 
-pub use self::csv::{IngestNotes, ReadOptions, ReadOutcome, read_scan_file, read_scan_str, write_scan_csv};
+pub use self::csv::{
+    IngestNotes, ReadOptions, ReadOutcome, read_scan_file, read_scan_str, write_scan_csv,
+};
 pub use crate::units::Quantity;
 
 use ndarray::Array1;
@@ -41,21 +43,39 @@ impl Scan {
     /// [`ScanError::TooFewPoints`], [`ScanError::NotFinite`], [`ScanError::NotAscending`] or
     /// [`ScanError::DuplicateFrequency`] (line numbers are point indices + 1 here).
     pub fn new(freq_hz: Vec<f64>, level_dbuv: Vec<f64>, meta: ScanMeta) -> Result<Scan, ScanError> {
-        let file = meta.source.clone().unwrap_or_else(|| "<memory>".to_string());
+        let file = meta
+            .source
+            .clone()
+            .unwrap_or_else(|| "<memory>".to_string());
         if freq_hz.len() != level_dbuv.len() || freq_hz.len() < 2 {
-            return Err(ScanError::TooFewPoints { file, found: freq_hz.len().min(level_dbuv.len()) });
+            return Err(ScanError::TooFewPoints {
+                file,
+                found: freq_hz.len().min(level_dbuv.len()),
+            });
         }
         for (i, (&f, &l)) in freq_hz.iter().zip(&level_dbuv).enumerate() {
             if !f.is_finite() || !l.is_finite() {
                 let text = format!("{f}, {l}");
-                return Err(ScanError::NotFinite { file, line: i + 1, text });
+                return Err(ScanError::NotFinite {
+                    file,
+                    line: i + 1,
+                    text,
+                });
             }
             if f <= 0.0 {
-                return Err(ScanError::FrequencyNotPositive { file, line: i + 1, freq_hz: f });
+                return Err(ScanError::FrequencyNotPositive {
+                    file,
+                    line: i + 1,
+                    freq_hz: f,
+                });
             }
         }
         csv::check_ascending(&file, &freq_hz, &(1..=freq_hz.len()).collect::<Vec<_>>())?;
-        Ok(Scan { freq_hz: Array1::from(freq_hz), level_dbuv: Array1::from(level_dbuv), meta })
+        Ok(Scan {
+            freq_hz: Array1::from(freq_hz),
+            level_dbuv: Array1::from(level_dbuv),
+            meta,
+        })
     }
 
     /// Number of points.
@@ -71,7 +91,11 @@ impl Scan {
     /// First and last frequency in Hz.
     pub fn span_hz(&self) -> (f64, f64) {
         let n = self.freq_hz.len();
-        if n == 0 { (0.0, 0.0) } else { (self.freq_hz[0], self.freq_hz[n - 1]) }
+        if n == 0 {
+            (0.0, 0.0)
+        } else {
+            (self.freq_hz[0], self.freq_hz[n - 1])
+        }
     }
 
     /// A name for messages: the title, else the source file, else "scan".
@@ -142,8 +166,12 @@ impl Detector {
             .to_ascii_lowercase();
         match t.as_str() {
             "peak" | "pk" | "pospeak" | "positivepeak" | "maxpeak" | "posp" => Some(Detector::Peak),
-            "quasipeak" | "qp" | "qpeak" | "cisprqp" | "cisprquasipeak" => Some(Detector::QuasiPeak),
-            "average" | "avg" | "av" | "cispraverage" | "cispravg" | "ave" => Some(Detector::Average),
+            "quasipeak" | "qp" | "qpeak" | "cisprqp" | "cisprquasipeak" => {
+                Some(Detector::QuasiPeak)
+            }
+            "average" | "avg" | "av" | "cispraverage" | "cispravg" | "ave" => {
+                Some(Detector::Average)
+            }
             "rms" | "cisprrms" => Some(Detector::Rms),
             "sample" | "smp" => Some(Detector::Sample),
             _ => None,
@@ -206,26 +234,78 @@ pub enum ScanError {
     #[error("{file}: {found} data point(s); at least 2 are needed")]
     TooFewPoints { file: String, found: usize },
     #[error("{file}:{line}: expected a number in column {column}, found `{text}`")]
-    BadNumber { file: String, line: usize, column: usize, text: String },
+    BadNumber {
+        file: String,
+        line: usize,
+        column: usize,
+        text: String,
+    },
     #[error("{file}:{line}: `{text}` is not a finite number (NaN or infinity)")]
-    NotFinite { file: String, line: usize, text: String },
+    NotFinite {
+        file: String,
+        line: usize,
+        text: String,
+    },
     #[error("{file}:{line}: expected at least {expected} columns, found {found}")]
-    MissingColumn { file: String, line: usize, expected: usize, found: usize },
+    MissingColumn {
+        file: String,
+        line: usize,
+        expected: usize,
+        found: usize,
+    },
     #[error("{file}:{line}: frequency {freq_hz} Hz is not positive")]
-    FrequencyNotPositive { file: String, line: usize, freq_hz: f64 },
+    FrequencyNotPositive {
+        file: String,
+        line: usize,
+        freq_hz: f64,
+    },
     #[error(
         "{file}:{line}: frequency {freq_hz} Hz is below the previous row's {previous_hz} Hz; \
          frequencies must ascend (pass --sort to sort the rows)"
     )]
-    NotAscending { file: String, line: usize, freq_hz: f64, previous_hz: f64 },
-    #[error("{file}:{line}: frequency {freq_hz} Hz repeats line {first_line}; each frequency may appear once")]
-    DuplicateFrequency { file: String, line: usize, first_line: usize, freq_hz: f64 },
-    #[error("{file}:{line}: the file says {file_unit} but {flag} says {flag_unit}; remove the flag or correct the file")]
-    UnitContradictsFlag { file: String, line: usize, file_unit: String, flag: String, flag_unit: String },
-    #[error("{file}: line {line_a} says {unit_a} but line {line_b} says {unit_b}; correct one of them")]
-    UnitConflict { file: String, line_a: usize, unit_a: String, line_b: usize, unit_b: String },
+    NotAscending {
+        file: String,
+        line: usize,
+        freq_hz: f64,
+        previous_hz: f64,
+    },
+    #[error(
+        "{file}:{line}: frequency {freq_hz} Hz repeats line {first_line}; each frequency may appear once"
+    )]
+    DuplicateFrequency {
+        file: String,
+        line: usize,
+        first_line: usize,
+        freq_hz: f64,
+    },
+    #[error(
+        "{file}:{line}: the file says {file_unit} but {flag} says {flag_unit}; remove the flag or correct the file"
+    )]
+    UnitContradictsFlag {
+        file: String,
+        line: usize,
+        file_unit: String,
+        flag: String,
+        flag_unit: String,
+    },
+    #[error(
+        "{file}: line {line_a} says {unit_a} but line {line_b} says {unit_b}; correct one of them"
+    )]
+    UnitConflict {
+        file: String,
+        line_a: usize,
+        unit_a: String,
+        line_b: usize,
+        unit_b: String,
+    },
     #[error("{file}:{line}: `{text}` is not a known {what}; expected {expected}")]
-    BadMetadata { file: String, line: usize, what: String, text: String, expected: String },
+    BadMetadata {
+        file: String,
+        line: usize,
+        what: String,
+        text: String,
+        expected: String,
+    },
     #[error("--columns {given}: expected two different 1-based column numbers like `1,3`")]
     BadColumns { given: String },
 }

@@ -80,7 +80,9 @@ pub struct Table {
 pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<Table, ScanError> {
     let lines = split_lines(bytes);
     if lines.iter().all(|l| l.trim().is_empty()) {
-        return Err(ScanError::Empty { file: file.to_string() });
+        return Err(ScanError::Empty {
+            file: file.to_string(),
+        });
     }
     let delimiter = detect_delimiter(&lines);
     let decimal_comma = delimiter != Delimiter::Comma && data_uses_decimal_comma(&lines, delimiter);
@@ -102,7 +104,14 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
         }
     }
     let preamble_end = start;
-    check_interruption(&lines, preamble_end, delimiter, columns, decimal_comma, file)?;
+    check_interruption(
+        &lines,
+        preamble_end,
+        delimiter,
+        columns,
+        decimal_comma,
+        file,
+    )?;
 
     let mut rows = Vec::new();
     for (i, line) in lines.iter().enumerate().skip(start) {
@@ -112,17 +121,31 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
         }
         let cells = delimiter.split(t);
         if cells.len() < need {
-            return Err(ScanError::MissingColumn { file: file.to_string(), line: i + 1, expected: need, found: cells.len() });
+            return Err(ScanError::MissingColumn {
+                file: file.to_string(),
+                line: i + 1,
+                expected: need,
+                found: cells.len(),
+            });
         }
         let a = number_at(&cells, columns.0, i + 1, decimal_comma, file)?;
         let b = number_at(&cells, columns.1, i + 1, decimal_comma, file)?;
         rows.push(Row { line: i + 1, a, b });
     }
     if rows.is_empty() {
-        return Err(ScanError::NoData { file: file.to_string() });
+        return Err(ScanError::NoData {
+            file: file.to_string(),
+        });
     }
     let (header, settings, skipped) = read_preamble(&lines[..preamble_end], delimiter);
-    Ok(Table { rows, header, settings, skipped, delimiter, decimal_comma })
+    Ok(Table {
+        rows,
+        header,
+        settings,
+        skipped,
+        delimiter,
+        decimal_comma,
+    })
 }
 
 /// A text line between numeric rows is a bad cell in the data, not a preamble: rows of numbers,
@@ -141,12 +164,16 @@ fn check_interruption(
             !t.is_empty() && !t.starts_with('#')
         })
         .collect();
-    let [.., before, last] = content[..] else { return Ok(()) };
+    let [.., before, last] = content[..] else {
+        return Ok(());
+    };
     let numeric_row = |i: usize| {
         let cells = delimiter.split(lines[i].trim());
-        [columns.0, columns.1]
-            .iter()
-            .all(|&c| cells.get(c).is_some_and(|x| parse_number(x, decimal_comma).is_some()))
+        [columns.0, columns.1].iter().all(|&c| {
+            cells
+                .get(c)
+                .is_some_and(|x| parse_number(x, decimal_comma).is_some())
+        })
     };
     if numeric_row(before) && !numeric_row(last) {
         let cells = delimiter.split(lines[last].trim());
@@ -157,17 +184,37 @@ fn check_interruption(
                 other => Some((c + 1, other.map_or(String::new(), |s| s.to_string()))),
             })
             .unwrap_or((columns.0 + 1, lines[last].trim().to_string()));
-        return Err(ScanError::BadNumber { file: file.to_string(), line: last + 1, column, text });
+        return Err(ScanError::BadNumber {
+            file: file.to_string(),
+            line: last + 1,
+            column,
+            text,
+        });
     }
     Ok(())
 }
 
-fn number_at(cells: &[&str], col: usize, line: usize, decimal_comma: bool, file: &str) -> Result<f64, ScanError> {
+fn number_at(
+    cells: &[&str],
+    col: usize,
+    line: usize,
+    decimal_comma: bool,
+    file: &str,
+) -> Result<f64, ScanError> {
     let text = cells.get(col).copied().unwrap_or("");
     match parse_number(text, decimal_comma) {
         Some(v) if v.is_finite() => Ok(v),
-        Some(_) => Err(ScanError::NotFinite { file: file.to_string(), line, text: text.to_string() }),
-        None => Err(ScanError::BadNumber { file: file.to_string(), line, column: col + 1, text: text.to_string() }),
+        Some(_) => Err(ScanError::NotFinite {
+            file: file.to_string(),
+            line,
+            text: text.to_string(),
+        }),
+        None => Err(ScanError::BadNumber {
+            file: file.to_string(),
+            line,
+            column: col + 1,
+            text: text.to_string(),
+        }),
     }
 }
 
@@ -212,7 +259,12 @@ fn data_uses_decimal_comma(lines: &[String], delimiter: Delimiter) -> bool {
         .map(|l| l.trim())
         .filter(|t| !t.is_empty() && !t.starts_with('#'))
         .take(50)
-        .any(|t| delimiter.split(t).iter().any(|c| c.contains(',') && !c.contains('.')))
+        .any(|t| {
+            delimiter
+                .split(t)
+                .iter()
+                .any(|c| c.contains(',') && !c.contains('.'))
+        })
 }
 
 /// A number from a cell; with a decimal comma `42,1` reads 42.1. `None` when not a number.
@@ -240,10 +292,17 @@ pub(crate) fn parse_number(cell: &str, decimal_comma: bool) -> Option<f64> {
 
 fn clean_cell(cell: &str) -> &str {
     let c = cell.trim();
-    c.strip_prefix('"').and_then(|x| x.strip_suffix('"')).unwrap_or(c).trim()
+    c.strip_prefix('"')
+        .and_then(|x| x.strip_suffix('"'))
+        .unwrap_or(c)
+        .trim()
 }
 
-type Preamble = (Option<(usize, Vec<String>)>, Vec<Setting>, Vec<(usize, String)>);
+type Preamble = (
+    Option<(usize, Vec<String>)>,
+    Vec<Setting>,
+    Vec<(usize, String)>,
+);
 
 /// Sorts the preamble into a header (the last text line, when it has as many cells as a data
 /// row would), settings and skipped lines.
@@ -262,7 +321,12 @@ fn read_preamble(lines: &[String], delimiter: Delimiter) -> Preamble {
         }
         if let Some(body) = t.strip_prefix('#') {
             match split_key_value(body) {
-                Some((key, value)) => settings.push(Setting { line: i + 1, key, value, comment: true }),
+                Some((key, value)) => settings.push(Setting {
+                    line: i + 1,
+                    key,
+                    value,
+                    comment: true,
+                }),
                 None => skipped.push((i + 1, t.to_string())),
             }
             continue;
@@ -271,8 +335,18 @@ fn read_preamble(lines: &[String], delimiter: Delimiter) -> Preamble {
         if Some(i) == last_content && looks_like_header(&cells) {
             header = Some((i + 1, cells.iter().map(|c| c.to_string()).collect()));
         } else if cells.len() >= 2 && !cells[0].is_empty() {
-            let value = cells[1..].iter().filter(|c| !c.is_empty()).copied().collect::<Vec<_>>().join(" ");
-            settings.push(Setting { line: i + 1, key: cells[0].to_string(), value, comment: false });
+            let value = cells[1..]
+                .iter()
+                .filter(|c| !c.is_empty())
+                .copied()
+                .collect::<Vec<_>>()
+                .join(" ");
+            settings.push(Setting {
+                line: i + 1,
+                key: cells[0].to_string(),
+                value,
+                comment: false,
+            });
         } else {
             skipped.push((i + 1, t.to_string()));
         }
@@ -282,7 +356,10 @@ fn read_preamble(lines: &[String], delimiter: Delimiter) -> Preamble {
 
 /// A header has at least two cells and no cell that is only a number.
 fn looks_like_header(cells: &[&str]) -> bool {
-    cells.len() >= 2 && cells.iter().all(|c| parse_number(c, false).is_none() && parse_number(c, true).is_none())
+    cells.len() >= 2
+        && cells
+            .iter()
+            .all(|c| parse_number(c, false).is_none() && parse_number(c, true).is_none())
 }
 
 /// `key = value` or `key: value` from a comment body; the key is at most four words.
@@ -290,7 +367,8 @@ fn split_key_value(body: &str) -> Option<(String, String)> {
     let at = body.find(['=', ':'])?;
     let key = body[..at].trim();
     let value = body[at + 1..].trim();
-    (!key.is_empty() && key.split_whitespace().count() <= 4).then(|| (key.to_string(), value.to_string()))
+    (!key.is_empty() && key.split_whitespace().count() <= 4)
+        .then(|| (key.to_string(), value.to_string()))
 }
 
 #[cfg(test)]
@@ -323,7 +401,11 @@ mod tests {
         let t = read(text).unwrap();
         assert_eq!(t.rows.len(), 2);
         assert_eq!(t.header.as_ref().map(|h| h.0), Some(6));
-        assert!(t.settings.iter().any(|s| s.key == "RBW" && s.value == "9 kHz"));
+        assert!(
+            t.settings
+                .iter()
+                .any(|s| s.key == "RBW" && s.value == "9 kHz")
+        );
     }
 
     #[test]
@@ -338,27 +420,62 @@ mod tests {
     #[test]
     fn a_text_cell_between_numbers_is_an_error() {
         let err = read("1,2\n2,3\nabc,4\n5,6\n").unwrap_err();
-        assert!(matches!(err, ScanError::BadNumber { line: 3, column: 1, .. }), "{err:?}");
+        assert!(
+            matches!(
+                err,
+                ScanError::BadNumber {
+                    line: 3,
+                    column: 1,
+                    ..
+                }
+            ),
+            "{err:?}"
+        );
         let err = read("1,2\n2,x\n5,6\n").unwrap_err();
-        assert!(matches!(err, ScanError::BadNumber { line: 2, column: 2, .. }), "{err:?}");
+        assert!(
+            matches!(
+                err,
+                ScanError::BadNumber {
+                    line: 2,
+                    column: 2,
+                    ..
+                }
+            ),
+            "{err:?}"
+        );
     }
 
     #[test]
     fn nan_and_inf_are_refused() {
-        assert!(matches!(read("1,2\n2,NaN\n").unwrap_err(), ScanError::NotFinite { line: 2, .. }));
-        assert!(matches!(read("1,2\ninf,3\n").unwrap_err(), ScanError::NotFinite { line: 2, .. }));
+        assert!(matches!(
+            read("1,2\n2,NaN\n").unwrap_err(),
+            ScanError::NotFinite { line: 2, .. }
+        ));
+        assert!(matches!(
+            read("1,2\ninf,3\n").unwrap_err(),
+            ScanError::NotFinite { line: 2, .. }
+        ));
     }
 
     #[test]
     fn empty_and_header_only() {
         assert!(matches!(read("").unwrap_err(), ScanError::Empty { .. }));
-        assert!(matches!(read("\n \n").unwrap_err(), ScanError::Empty { .. }));
-        assert!(matches!(read("freq_hz,level_dbuv\n").unwrap_err(), ScanError::NoData { .. }));
+        assert!(matches!(
+            read("\n \n").unwrap_err(),
+            ScanError::Empty { .. }
+        ));
+        assert!(matches!(
+            read("freq_hz,level_dbuv\n").unwrap_err(),
+            ScanError::NoData { .. }
+        ));
     }
 
     #[test]
     fn tabs_and_blanks() {
         assert_eq!(read("1\t2,5\n3\t4\n").unwrap().rows[0].b, 2.5);
-        assert_eq!(read("1  2\n3 4\n").unwrap().delimiter, Delimiter::Whitespace);
+        assert_eq!(
+            read("1  2\n3 4\n").unwrap().delimiter,
+            Delimiter::Whitespace
+        );
     }
 }

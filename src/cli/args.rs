@@ -1,0 +1,136 @@
+//! Command-line arguments (clap derive).
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "spurhound",
+    version,
+    about = "Attributes the peaks of EMC pre-compliance emission scans and judges them against limits",
+    long_about = "spurhound reads exported emission scans, corrects them (LISN factor, cable, antenna factor), \
+                  judges them against published or user limit lines and says where they fail. Results are \
+                  pre-compliance estimates, not a certified measurement.\n\nExit status: 0 within every limit \
+                  (or no limit given), 1 a limit is exceeded, 2 bad input or usage."
+)]
+pub struct Cli {
+    /// Say what each file reader skipped and read.
+    #[arg(long, short, global = true)]
+    pub verbose: bool,
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Analyse a scan: corrections, margins to limits, verdict.
+    Analyze(AnalyzeArgs),
+    /// List the built-in limits, or show one (table and source).
+    Limits(LimitsArgs),
+    /// Render an analyzer trace from a scene file of declared sources.
+    Synth(SynthArgs),
+}
+
+/// How scan files are read; applies to the DUT scan and every ambient scan.
+#[derive(Debug, Args)]
+pub struct ReadArgs {
+    /// RBW in Hz (`9000`, `9k`, `9kHz`); replaces what the file says.
+    #[arg(long, value_name = "HZ")]
+    pub rbw: Option<String>,
+    /// Detector of the scan; replaces what the file says.
+    #[arg(long, value_enum)]
+    pub detector: Option<DetectorArg>,
+    /// Frequency unit of the files that do not state one.
+    #[arg(long, value_enum)]
+    pub freq_unit: Option<FreqUnitArg>,
+    /// Level unit of the files that do not state one.
+    #[arg(long, value_enum)]
+    pub level_unit: Option<LevelUnitArg>,
+    /// Columns of frequency and level, 1-based (`1,3`).
+    #[arg(long, value_name = "A,B")]
+    pub columns: Option<String>,
+    /// Sort rows by frequency instead of refusing a file that does not ascend.
+    #[arg(long)]
+    pub sort: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct AnalyzeArgs {
+    /// The DUT scan (CSV).
+    pub scan: PathBuf,
+    /// An ambient scan taken with the DUT off; repeatable.
+    #[arg(long, value_name = "FILE")]
+    pub ambient: Vec<PathBuf>,
+    /// A built-in limit name (see `spurhound limits`) or a limit file; repeatable.
+    #[arg(long, value_name = "NAME|FILE")]
+    pub limit: Vec<String>,
+    /// A correction table added to every reading (LISN factor, limiter, cable, antenna factor); repeatable, applied in order.
+    #[arg(long, value_name = "FILE")]
+    pub transducer: Vec<PathBuf>,
+    /// The board's oscillator inventory (TOML).
+    #[arg(long, value_name = "FILE")]
+    pub sources: Option<PathBuf>,
+    #[command(flatten)]
+    pub read: ReadArgs,
+    /// Report format.
+    #[arg(long, value_enum, default_value_t = FormatArg::Text)]
+    pub format: FormatArg,
+    /// Write the report to this file instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<PathBuf>,
+    /// Also draw the scan, ambient and limits as an SVG plot.
+    #[arg(long, value_name = "FILE.svg")]
+    pub plot: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub struct LimitsArgs {
+    /// A built-in limit to show.
+    pub name: Option<String>,
+}
+
+#[derive(Debug, Args)]
+pub struct SynthArgs {
+    /// The scene (TOML).
+    pub scene: PathBuf,
+    /// Where to write the scan CSV.
+    #[arg(long, short, value_name = "FILE")]
+    pub output: PathBuf,
+    /// Override the scene's seed.
+    #[arg(long)]
+    pub seed: Option<u64>,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum FormatArg {
+    Text,
+    Json,
+    Csv,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum DetectorArg {
+    Peak,
+    QuasiPeak,
+    Average,
+    Rms,
+    Sample,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum FreqUnitArg {
+    Hz,
+    Khz,
+    Mhz,
+    Ghz,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum LevelUnitArg {
+    Dbuv,
+    Dbm,
+    Dbmv,
+    Dbua,
+    #[value(name = "dbuv/m")]
+    DbuvPerM,
+}

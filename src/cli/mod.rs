@@ -1,0 +1,256 @@
+//! The command line: the only place that knows clap, prints or exits.
+
+mod args;
+
+use args::{
+    AnalyzeArgs, Cli, Command, DetectorArg, FormatArg, FreqUnitArg, LevelUnitArg, LimitsArgs,
+    ReadArgs, SynthArgs,
+};
+use clap::Parser;
+use spurhound::analysis::fmt_hz;
+use spurhound::correct::{Transducer, TransducerChain};
+use spurhound::report::{self, Format};
+use spurhound::scan::{self, Detector, ReadOptions, Role};
+use spurhound::units::{FreqUnit, LevelUnit};
+use spurhound::{Context, analyze, limits};
+use std::process::ExitCode;
+
+/// Exit status: analysis done, within every limit (or no limit given).
+const PASS: u8 = 0;
+/// Exit status: analysis done, a limit is exceeded.
+const FAIL: u8 = 1;
+/// Exit status: bad input or usage.
+const BAD_INPUT: u8 = 2;
+
+/// An error for the user: the message and its causes, printed once.
+struct CliError(String);
+
+impl<E: std::error::Error> From<E> for CliError {
+    fn from(e: E) -> Self {
+        let mut msg = e.to_string();
+        let mut src = e.source();
+        while let Some(s) = src {
+            let text = s.to_string();
+            if !msg.contains(&text) {
+                msg.push_str(": ");
+                msg.push_str(&text);
+            }
+            src = s.source();
+        }
+        CliError(msg)
+    }
+}
+
+/// Parses the command line, runs it and returns the exit status.
+pub fn run() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match &cli.command {
+        Command::Analyze(a) => run_analyze(a, cli.verbose),
+        Command::Limits(l) => run_limits(l),
+        Command::Synth(s) => run_synth(s, cli.verbose),
+    };
+    match result {
+        Ok(code) => ExitCode::from(code),
+        Err(CliError(msg)) => {
+            eprintln!("spurhound: error: {msg}");
+            ExitCode::from(BAD_INPUT)
+        }
+    }
+}
+
+fn read_options(r: &ReadArgs) -> Result<ReadOptions, CliError> {
+    let mut opts = ReadOptions {
+        sort: r.sort,
+        ..ReadOptions::default()
+    };
+    if let Some(c) = &r.columns {
+        opts.columns = ReadOptions::parse_columns(c)?;
+    }
+    if let Some(text) = &r.rbw {
+        let hz = scan::csv::parse_rbw_flag(text).ok_or_else(|| {
+            CliError(format!(
+                "--rbw {text}: expected a positive frequency such as 9000, 9k or 9kHz"
+            ))
+        })?;
+        opts.rbw_hz = Some(hz);
+    }
+    opts.detector = r.detector.map(|d| match d {
+        DetectorArg::Peak => Detector::Peak,
+        DetectorArg::QuasiPeak => Detector::QuasiPeak,
+        DetectorArg::Average => Detector::Average,
+        DetectorArg::Rms => Detector::Rms,
+        DetectorArg::Sample => Detector::Sample,
+    });
+    opts.freq_unit = r.freq_unit.map(|u| match u {
+        FreqUnitArg::Hz => FreqUnit::Hz,
+        FreqUnitArg::Khz => FreqUnit::KHz,
+        FreqUnitArg::Mhz => FreqUnit::MHz,
+        FreqUnitArg::Ghz => FreqUnit::GHz,
+    });
+    opts.level_unit = r.level_unit.map(|u| match u {
+        LevelUnitArg::Dbuv => LevelUnit::DbUv,
+        LevelUnitArg::Dbm => LevelUnit::DbM,
+        LevelUnitArg::Dbmv => LevelUnit::DbMv,
+        LevelUnitArg::Dbua => LevelUnit::DbUa,
+        LevelUnitArg::DbuvPerM => LevelUnit::DbUvPerM,
+    });
+    Ok(opts)
+}
+
+fn read_scan(
+    path: &std::path::Path,
+    opts: &ReadOptions,
+    verbose: bool,
+) -> Result<scan::Scan, CliError> {
+    let out = scan::read_scan_file(path, opts)?;
+    let notes = &out.notes;
+    if verbose {
+        eprintln!(
+            "{}: {} delimiter{}",
+            path.display(),
+            notes.delimiter,
+            if notes.decimal_comma {
+                ", decimal comma"
+            } else {
+                ""
+            }
+        );
+        if let Some(h) = notes.header_line {
+            eprintln!("  header on line {h}");
+        }
+        for r in &notes.read {
+            eprintln!("  read: {r}");
+        }
+        for (line, text) in &notes.skipped {
+            eprintln!("  skipped line {line}: {text}");
+        }
+    }
+    for w in &notes.warnings {
+        eprintln!("spurhound: warning: {}: {w}", path.display());
+    }
+    Ok(out.scan)
+}
+
+fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
+    let opts = read_options(&a.read)?;
+    let dut = read_scan(&a.scan, &opts, verbose)?;
+    let ambient_opts = ReadOptions {
+        role: Some(Role::Ambient),
+        ..opts.clone()
+    };
+    let ambient = a
+        .ambient
+        .iter()
+        .map(|p| read_scan(p, &ambient_opts, verbose))
+        .collect::<Result<Vec<_>, _>>()?;
+    let limits = a
+        .limit
+        .iter()
+        .map(|l| limits::resolve(l))
+        .collect::<Result<Vec<_>, _>>()?;
+    let items = a
+        .transducer
+        .iter()
+        .map(|p| Transducer::read_file(p))
+        .collect::<Result<Vec<_>, _>>()?;
+    if let Some(src) = &a.sources {
+        if !src.exists() {
+            return Err(CliError(format!(
+                "{}: cannot read the source inventory: no such file",
+                src.display()
+            )));
+        }
+        eprintln!(
+            "spurhound: note: the source inventory {} is not used by this version yet",
+            src.display()
+        );
+    }
+    let ctx = Context {
+        limits,
+        ambient,
+        transducers: TransducerChain { items },
+    };
+    let analysis = analyze(&dut, &ctx)?;
+    let format = match a.format {
+        FormatArg::Text => Format::Text,
+        FormatArg::Json => Format::Json,
+        FormatArg::Csv => Format::Csv,
+    };
+    let text = report::render(&analysis, format)?;
+    match &a.out {
+        Some(path) => std::fs::write(path, text)
+            .map_err(|e| CliError(format!("{}: cannot write the report: {e}", path.display())))?,
+        None => print!("{text}"),
+    }
+    if let Some(path) = &a.plot {
+        let svg = report::svg::render_svg(&analysis)?;
+        std::fs::write(path, svg)
+            .map_err(|e| CliError(format!("{}: cannot write the plot: {e}", path.display())))?;
+    }
+    Ok(if analysis.verdict.pass == Some(false) {
+        FAIL
+    } else {
+        PASS
+    })
+}
+
+fn run_limits(l: &LimitsArgs) -> Result<u8, CliError> {
+    let Some(name) = &l.name else {
+        println!(
+            "{:<18} {:<11} {:<7} {:>20}  title",
+            "name", "detector", "unit", "range"
+        );
+        for lim in limits::all_builtin() {
+            let (a, b) = lim.range_hz();
+            let range = format!("{}-{}", fmt_hz(a), fmt_hz(b));
+            println!(
+                "{:<18} {:<11} {:<7} {:>20}  {}",
+                lim.name,
+                lim.detector.name(),
+                lim.quantity.unit(),
+                range,
+                lim.title
+            );
+        }
+        return Ok(PASS);
+    };
+    let lim = limits::builtin(name).ok_or_else(|| {
+        let known: Vec<String> = limits::all_builtin().into_iter().map(|l| l.name).collect();
+        CliError(format!(
+            "`{name}` is not a built-in limit; built-in limits: {}",
+            known.join(", ")
+        ))
+    })?;
+    println!("{}  ({})", lim.name, lim.title);
+    println!("detector {}, unit {}", lim.detector, lim.quantity.unit());
+    println!();
+    println!(
+        "  {:>12} {:>12} {:>12} {:>12}",
+        "from", "to", "limit from", "limit to"
+    );
+    for w in lim.vertices.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        if b.0 > a.0 {
+            println!(
+                "  {:>12} {:>12} {:>9.2} {} {:>9.2} {}",
+                fmt_hz(a.0),
+                fmt_hz(b.0),
+                a.1,
+                lim.quantity.unit(),
+                b.1,
+                lim.quantity.unit()
+            );
+        }
+    }
+    println!();
+    println!(
+        "Between rows the limit is linear in log10(f); at a transition the lower value applies."
+    );
+    println!("source: {}", lim.source);
+    Ok(PASS)
+}
+
+fn run_synth(s: &SynthArgs, verbose: bool) -> Result<u8, CliError> {
+    let _ = (s, verbose);
+    Err(CliError("synth is not built yet".into()))
+}

@@ -1,0 +1,249 @@
+//! The report for people: fits 80 columns.
+
+use super::model::NOTICE;
+use super::{RenderError, Renderer};
+use crate::analysis::{AMBIENT_HEADROOM_DB, Analysis, fmt_hz};
+use std::fmt::Write as _;
+
+/// Report width in columns.
+pub const WIDTH: usize = 80;
+
+/// The text renderer.
+pub struct TextReport;
+
+impl Renderer for TextReport {
+    fn render(&self, a: &Analysis) -> Result<String, RenderError> {
+        let mut out = String::new();
+        let _ = writeln!(out, "spurhound analysis: {NOTICE}");
+        out.push('\n');
+        scan_section(a, &mut out);
+        verdict_section(a, &mut out);
+        limits_section(a, &mut out);
+        over_section(a, &mut out);
+        ambient_section(a, &mut out);
+        if a.peaks.is_empty() && a.families.is_empty() {
+            out.push_str("Culprits\n  peaks and harmonic families are not attributed yet in this version.\n\n");
+        }
+        warnings_section(a, &mut out);
+        Ok(out)
+    }
+}
+
+fn scan_section(a: &Analysis, out: &mut String) {
+    let m = &a.scan.meta;
+    let (s, e) = a.scan.span_hz();
+    let name = m.source.clone().unwrap_or_else(|| "scan".into());
+    let _ = writeln!(out, "Scan      {}", clip(&name, WIDTH - 10));
+    if let Some(t) = &m.title {
+        let _ = writeln!(out, "          {}", clip(t, WIDTH - 10));
+    }
+    let rbw = m
+        .rbw_hz
+        .map_or("RBW not stated".into(), |r| format!("RBW {}", fmt_hz(r)));
+    let det = m
+        .detector
+        .map_or("detector not stated".into(), |d| format!("{d} detector"));
+    let _ = writeln!(
+        out,
+        "          {} points, {} to {}, {rbw}, {det}, {}",
+        a.scan.len(),
+        fmt_hz(s),
+        fmt_hz(e),
+        m.quantity.unit()
+    );
+    out.push('\n');
+}
+
+fn verdict_section(a: &Analysis, out: &mut String) {
+    let v = &a.verdict;
+    let word = match v.pass {
+        Some(true) => "PASS",
+        Some(false) => "FAIL",
+        None => "NO VERDICT",
+    };
+    match (v.worst_margin_db, v.worst_freq_hz, &v.worst_limit) {
+        (Some(m), Some(f), Some(l)) => {
+            let _ = writeln!(
+                out,
+                "Verdict   {word}: worst margin {m:+.1} dB at {} ({l})",
+                fmt_hz(f)
+            );
+        }
+        _ => {
+            let _ = writeln!(out, "Verdict   {word}: no limit covers the scan");
+        }
+    }
+    out.push('\n');
+}
+
+fn limits_section(a: &Analysis, out: &mut String) {
+    if a.limits.is_empty() {
+        return;
+    }
+    out.push_str("Limits\n");
+    let _ = writeln!(
+        out,
+        "  {:<18} {:<11} {:<6} {:>12} {:>14}",
+        "name", "detector", "result", "worst margin", "at"
+    );
+    for r in &a.limits {
+        let result = match r.margins.pass() {
+            Some(true) => "pass",
+            Some(false) => "FAIL",
+            None => "-",
+        };
+        let (m, f) = r
+            .margins
+            .worst
+            .map_or(("-".to_string(), "-".to_string()), |w| {
+                (format!("{:+.1} dB", w.margin_db), fmt_hz(w.freq_hz))
+            });
+        let _ = writeln!(
+            out,
+            "  {:<18} {:<11} {:<6} {:>12} {:>14}",
+            clip(&r.limit.name, 18),
+            r.limit.detector.name(),
+            result,
+            m,
+            f
+        );
+    }
+    out.push('\n');
+}
+
+/// Most ranges listed per limit; the JSON has them all.
+const MAX_RANGES: usize = 12;
+
+fn over_section(a: &Analysis, out: &mut String) {
+    for r in a
+        .limits
+        .iter()
+        .filter(|r| !r.margins.exceedances.is_empty())
+    {
+        let ex = &r.margins.exceedances;
+        let _ = writeln!(
+            out,
+            "Over the limit {}: {} range(s)",
+            r.limit.name,
+            ex.len()
+        );
+        let _ = writeln!(
+            out,
+            "  {:>13} {:>13} {:>7} {:>14} {:>9} {:>8}",
+            "from", "to", "points", "worst at", "level", "margin"
+        );
+        let mut sorted: Vec<_> = ex.iter().collect();
+        sorted.sort_by(|x, y| x.worst_margin_db.total_cmp(&y.worst_margin_db));
+        for e in sorted.iter().take(MAX_RANGES) {
+            let _ = writeln!(
+                out,
+                "  {:>13} {:>13} {:>7} {:>14} {:>9.1} {:>+8.1}",
+                fmt_hz(e.start_hz),
+                fmt_hz(e.stop_hz),
+                e.points,
+                fmt_hz(e.worst_freq_hz),
+                e.worst_level_dbuv,
+                e.worst_margin_db
+            );
+        }
+        if ex.len() > MAX_RANGES {
+            let _ = writeln!(
+                out,
+                "  ... and {} more (see --format json)",
+                ex.len() - MAX_RANGES
+            );
+        }
+        out.push('\n');
+    }
+}
+
+fn ambient_section(a: &Analysis, out: &mut String) {
+    if a.ambient.is_empty() {
+        return;
+    }
+    out.push_str("Ambient\n");
+    for x in &a.ambient {
+        let name = x.scan.meta.source.clone().unwrap_or_else(|| x.scan.label());
+        let worst = x.margins.as_ref().and_then(|m| m.worst);
+        let line = match worst {
+            Some(w) => format!(
+                "{}: worst margin {:+.1} dB at {}; within {AMBIENT_HEADROOM_DB} dB of the limit in {} range(s)",
+                name,
+                w.margin_db,
+                fmt_hz(w.freq_hz),
+                x.near_limit.len()
+            ),
+            None => format!("{name}: no limit to compare with"),
+        };
+        wrap_into(out, &line, "  ", "    ");
+    }
+    out.push('\n');
+}
+
+fn warnings_section(a: &Analysis, out: &mut String) {
+    if a.warnings.is_empty() {
+        return;
+    }
+    out.push_str("Check\n");
+    for w in &a.warnings {
+        wrap_into(out, &w.message, "  - ", "    ");
+    }
+}
+
+/// Appends `text` wrapped to [`WIDTH`] columns, the first line after `first`, the rest after
+/// `rest`.
+pub fn wrap_into(out: &mut String, text: &str, first: &str, rest: &str) {
+    let mut line = String::from(first);
+    let mut empty = true;
+    for word in text.split_whitespace() {
+        if !empty && line.chars().count() + 1 + word.chars().count() > WIDTH {
+            out.push_str(&line);
+            out.push('\n');
+            line = String::from(rest);
+            empty = true;
+        }
+        if !empty {
+            line.push(' ');
+        }
+        line.push_str(word);
+        empty = false;
+    }
+    out.push_str(&line);
+    out.push('\n');
+}
+
+fn clip(s: &str, n: usize) -> String {
+    if s.chars().count() <= n {
+        s.to_string()
+    } else {
+        let keep: String = s
+            .chars()
+            .rev()
+            .take(n.saturating_sub(3))
+            .collect::<Vec<_>>()
+            .into_iter()
+            .rev()
+            .collect();
+        format!("...{keep}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn wrapping_keeps_to_80_columns() {
+        let mut out = String::new();
+        let text = "word ".repeat(60);
+        wrap_into(&mut out, &text, "  - ", "    ");
+        assert!(out.lines().all(|l| l.chars().count() <= WIDTH));
+        assert!(out.lines().count() > 3);
+    }
+
+    #[test]
+    fn clipping_keeps_the_end() {
+        assert_eq!(clip("abcdef", 5), "...ef");
+        assert_eq!(clip("abc", 5), "abc");
+    }
+}
