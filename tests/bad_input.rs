@@ -1,0 +1,87 @@
+//! One test per class of bad input: the message names the file, the line and what was expected,
+//! and the command exits 2.
+
+mod common;
+use common::{spurhound, stderr};
+
+fn fails_with(file: &str, extra: &[&str], wanted: &[&str]) {
+    let path = format!("fixtures/scans/bad/{file}");
+    let mut args = vec!["analyze", path.as_str(), "--limit", "cispr32-b-qp"];
+    args.extend_from_slice(extra);
+    let out = spurhound(&args);
+    assert_eq!(out.status.code(), Some(2), "{file}: {}", stderr(&out));
+    let err = stderr(&out);
+    assert!(err.contains(&path), "{file}: message does not name the file: {err}");
+    for w in wanted {
+        assert!(err.contains(w), "{file}: message lacks `{w}`: {err}");
+    }
+    assert!(!err.contains("panicked"), "{err}");
+}
+
+#[test]
+fn empty_file() {
+    fails_with("empty.csv", &[], &["the file is empty"]);
+}
+
+#[test]
+fn header_only() {
+    fails_with("header_only.csv", &[], &["no numeric rows"]);
+}
+
+#[test]
+fn fewer_than_two_points() {
+    fails_with("one_point.csv", &[], &["1 data point(s); at least 2"]);
+}
+
+#[test]
+fn non_numeric_cell() {
+    fails_with("non_numeric.csv", &[], &[":4:", "expected a number in column 2", "`n/a`"]);
+}
+
+#[test]
+fn nan_level() {
+    fails_with("nan.csv", &[], &[":3:", "not a finite number"]);
+}
+
+#[test]
+fn frequencies_not_ascending() {
+    fails_with("descending.csv", &[], &[":4:", "160000 Hz is below the previous row's 170000 Hz", "--sort"]);
+}
+
+#[test]
+fn sort_accepts_and_sorts() {
+    let out = spurhound(&["analyze", "fixtures/scans/bad/descending.csv", "--sort", "--format", "json"]);
+    assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
+}
+
+#[test]
+fn duplicated_frequency() {
+    fails_with("duplicate.csv", &[], &[":4:", "repeats line 3"]);
+}
+
+#[test]
+fn header_unit_contradicting_a_flag() {
+    fails_with("header_dbm.csv", &["--level-unit", "dbuv"], &[":1:", "dBm", "--level-unit"]);
+}
+
+#[test]
+fn unknown_limit_name() {
+    let out = spurhound(&["analyze", "fixtures/scans/forms/plain.csv", "--limit", "class-z"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("spurhound limits"), "{}", stderr(&out));
+}
+
+#[test]
+fn transducer_not_covering_the_scan() {
+    let out = spurhound(&["analyze", "fixtures/scans/forms/plain.csv", "--transducer", "fixtures/transducers/short-range.csv"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = stderr(&out);
+    assert!(err.contains("outside transducer") && err.contains("not extrapolated"), "{err}");
+}
+
+#[test]
+fn missing_file() {
+    let out = spurhound(&["analyze", "fixtures/scans/none.csv"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("fixtures/scans/none.csv: cannot read the file"), "{}", stderr(&out));
+}
