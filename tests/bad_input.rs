@@ -11,7 +11,10 @@ fn fails_with(file: &str, extra: &[&str], wanted: &[&str]) {
     let out = spurhound(&args);
     assert_eq!(out.status.code(), Some(2), "{file}: {}", stderr(&out));
     let err = stderr(&out);
-    assert!(err.contains(&path), "{file}: message does not name the file: {err}");
+    assert!(
+        err.contains(&path),
+        "{file}: message does not name the file: {err}"
+    );
     for w in wanted {
         assert!(err.contains(w), "{file}: message lacks `{w}`: {err}");
     }
@@ -35,7 +38,11 @@ fn fewer_than_two_points() {
 
 #[test]
 fn non_numeric_cell() {
-    fails_with("non_numeric.csv", &[], &[":4:", "expected a number in column 2", "`n/a`"]);
+    fails_with(
+        "non_numeric.csv",
+        &[],
+        &[":4:", "expected a number in column 2", "`n/a`"],
+    );
 }
 
 #[test]
@@ -45,12 +52,26 @@ fn nan_level() {
 
 #[test]
 fn frequencies_not_ascending() {
-    fails_with("descending.csv", &[], &[":4:", "160000 Hz is below the previous row's 170000 Hz", "--sort"]);
+    fails_with(
+        "descending.csv",
+        &[],
+        &[
+            ":4:",
+            "160000 Hz is below the previous row's 170000 Hz",
+            "--sort",
+        ],
+    );
 }
 
 #[test]
 fn sort_accepts_and_sorts() {
-    let out = spurhound(&["analyze", "fixtures/scans/bad/descending.csv", "--sort", "--format", "json"]);
+    let out = spurhound(&[
+        "analyze",
+        "fixtures/scans/bad/descending.csv",
+        "--sort",
+        "--format",
+        "json",
+    ]);
     assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
 }
 
@@ -61,27 +82,52 @@ fn duplicated_frequency() {
 
 #[test]
 fn header_unit_contradicting_a_flag() {
-    fails_with("header_dbm.csv", &["--level-unit", "dbuv"], &[":1:", "dBm", "--level-unit"]);
+    fails_with(
+        "header_dbm.csv",
+        &["--level-unit", "dbuv"],
+        &[":1:", "dBm", "--level-unit"],
+    );
 }
 
 #[test]
 fn unknown_limit_name() {
-    let out = spurhound(&["analyze", "fixtures/scans/forms/plain.csv", "--limit", "class-z"]);
+    let out = spurhound(&[
+        "analyze",
+        "fixtures/scans/forms/plain.csv",
+        "--limit",
+        "class-z",
+    ]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("spurhound limits"), "{}", stderr(&out));
+    assert!(
+        stderr(&out).contains("spurhound limits"),
+        "{}",
+        stderr(&out)
+    );
 }
 
 #[test]
 fn transducer_not_covering_the_scan() {
-    let out = spurhound(&["analyze", "fixtures/scans/forms/plain.csv", "--transducer", "fixtures/transducers/short-range.csv"]);
+    let out = spurhound(&[
+        "analyze",
+        "fixtures/scans/forms/plain.csv",
+        "--transducer",
+        "fixtures/transducers/short-range.csv",
+    ]);
     assert_eq!(out.status.code(), Some(2));
     let err = stderr(&out);
-    assert!(err.contains("outside transducer") && err.contains("not extrapolated"), "{err}");
+    assert!(
+        err.contains("outside transducer") && err.contains("not extrapolated"),
+        "{err}"
+    );
 }
 
 #[test]
 fn missing_file() {
     let out = spurhound(&["analyze", "fixtures/scans/none.csv"]);
     assert_eq!(out.status.code(), Some(2));
-    assert!(stderr(&out).contains("fixtures/scans/none.csv: cannot read the file"), "{}", stderr(&out));
+    assert!(
+        stderr(&out).contains("fixtures/scans/none.csv: cannot read the file"),
+        "{}",
+        stderr(&out)
+    );
 }

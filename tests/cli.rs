@@ -6,17 +6,36 @@ use common::{spurhound, stderr, stdout};
 #[test]
 fn exit_status_follows_the_verdict() {
     // source: CISPR 32 Class B QP: 63.14 dBµV at 180 kHz (66 − 19.125·log10(1.2)), so 67.5 fails
-    let fail = spurhound(&["analyze", "fixtures/scans/small-fail.csv", "--limit", "cispr32-b-qp"]);
+    let fail = spurhound(&[
+        "analyze",
+        "fixtures/scans/small-fail.csv",
+        "--limit",
+        "cispr32-b-qp",
+    ]);
     assert_eq!(fail.status.code(), Some(1), "{}", stderr(&fail));
-    let pass = spurhound(&["analyze", "fixtures/scans/small-pass.csv", "--limit", "cispr32-b-qp"]);
+    let pass = spurhound(&[
+        "analyze",
+        "fixtures/scans/small-pass.csv",
+        "--limit",
+        "cispr32-b-qp",
+    ]);
     assert_eq!(pass.status.code(), Some(0), "{}", stderr(&pass));
     let none = spurhound(&["analyze", "fixtures/scans/small-fail.csv"]);
-    assert_eq!(none.status.code(), Some(0), "no limit: analysis done, nothing exceeded");
+    assert_eq!(
+        none.status.code(),
+        Some(0),
+        "no limit: analysis done, nothing exceeded"
+    );
 }
 
 #[test]
 fn text_report_names_verdict_and_worst_point() {
-    let out = spurhound(&["analyze", "fixtures/scans/small-fail.csv", "--limit", "cispr32-b-qp"]);
+    let out = spurhound(&[
+        "analyze",
+        "fixtures/scans/small-fail.csv",
+        "--limit",
+        "cispr32-b-qp",
+    ]);
     let text = stdout(&out);
     assert!(text.contains("pre-compliance estimate"), "{text}");
     assert!(text.contains("FAIL"), "{text}");
@@ -45,17 +64,31 @@ fn report_and_plot_go_to_files() {
     ]);
     assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
     assert!(stdout(&out).is_empty());
-    let doc: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
     assert_eq!(doc["schema"], "spurhound.analysis/1");
     let plot = std::fs::read_to_string(&svg).unwrap();
-    assert!(plot.starts_with("<svg") && plot.contains("cispr32-b-qp"), "{}", &plot[..200.min(plot.len())]);
+    assert!(
+        plot.starts_with("<svg") && plot.contains("cispr32-b-qp"),
+        "{}",
+        &plot[..200.min(plot.len())]
+    );
     std::fs::remove_dir_all(&dir).ok();
 }
 
 #[test]
 fn limits_are_listed_and_shown() {
     let list = stdout(&spurhound(&["limits"]));
-    for name in ["cispr32-a-qp", "cispr32-a-av", "cispr32-b-qp", "cispr32-b-av", "cispr32-b-rad-10m", "cispr32-b-rad-3m", "fcc15-b-qp", "fcc15-a-rad-10m"] {
+    for name in [
+        "cispr32-a-qp",
+        "cispr32-a-av",
+        "cispr32-b-qp",
+        "cispr32-b-av",
+        "cispr32-b-rad-10m",
+        "cispr32-b-rad-3m",
+        "fcc15-b-qp",
+        "fcc15-a-rad-10m",
+    ] {
         assert!(list.contains(name), "{name} missing from\n{list}");
     }
     let show = spurhound(&["limits", "cispr32-b-qp"]);
@@ -98,7 +131,11 @@ fn user_limit_file_and_transducers() {
 
 #[test]
 fn verbose_says_what_was_read_and_skipped() {
-    let out = spurhound(&["--verbose", "analyze", "fixtures/scans/forms/instrument.csv"]);
+    let out = spurhound(&[
+        "--verbose",
+        "analyze",
+        "fixtures/scans/forms/instrument.csv",
+    ]);
     let err = stderr(&out);
     assert!(err.contains("read: RBW 9000 Hz (line 16)"), "{err}");
     assert!(err.contains("skipped line 1"), "{err}");

@@ -26,16 +26,38 @@ fn check_contract(doc: &Value) {
         assert!(["dut", "ambient", "mixed", "unknown"].contains(&p["origin"].as_str().unwrap()));
         assert!(p["family"].is_null() || p["family"].is_u64());
         if let (Some(l), Some(m)) = (p["limit_dbuv"].as_f64(), p["margin_db"].as_f64()) {
-            assert!((m - (l - p["level_dbuv"].as_f64().unwrap())).abs() < 1e-9, "margin = limit − level");
+            assert!(
+                (m - (l - p["level_dbuv"].as_f64().unwrap())).abs() < 1e-9,
+                "margin = limit − level"
+            );
         }
     }
     for f in doc["families"].as_array().expect("families is an array") {
-        assert!(f["id"].is_u64() && f["fundamental_hz"].is_number() && f["fundamental_sigma_hz"].is_number());
-        assert!(f["harmonics"].as_array().unwrap().iter().all(|h| h.is_u64()));
-        assert!(["switching", "clock", "lighting", "broadcast", "other"].contains(&f["kind"].as_str().unwrap()));
+        assert!(
+            f["id"].is_u64()
+                && f["fundamental_hz"].is_number()
+                && f["fundamental_sigma_hz"].is_number()
+        );
+        assert!(
+            f["harmonics"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .all(|h| h.is_u64())
+        );
+        assert!(
+            ["switching", "clock", "lighting", "broadcast", "other"]
+                .contains(&f["kind"].as_str().unwrap())
+        );
         assert!(["dut", "ambient", "mixed"].contains(&f["origin"].as_str().unwrap()));
         assert!(is_num_or_null(&f["worst_margin_db"]) && f["rank"].is_u64());
-        assert!(f["remedies"].as_array().unwrap().iter().all(|r| r.is_string()));
+        assert!(
+            f["remedies"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .all(|r| r.is_string())
+        );
     }
     let v = &doc["verdict"];
     assert!(v["pass"].is_boolean() || v["pass"].is_null());
@@ -65,7 +87,13 @@ fn no_limit_gives_nulls() {
 
 #[test]
 fn several_limits_are_judged_together() {
-    let doc = analysis(&["fixtures/scans/small-fail.csv", "--limit", "cispr32-b-qp", "--limit", "cispr32-b-av"]);
+    let doc = analysis(&[
+        "fixtures/scans/small-fail.csv",
+        "--limit",
+        "cispr32-b-qp",
+        "--limit",
+        "cispr32-b-av",
+    ]);
     check_contract(&doc);
     let limits = doc["limits"].as_array().unwrap();
     assert_eq!(limits.len(), 2);

@@ -3,7 +3,10 @@
 use spurhound::limits::builtin;
 
 fn at(name: &str, freq_hz: f64) -> f64 {
-    builtin(name).unwrap_or_else(|| panic!("{name} is built in")).at(freq_hz).unwrap_or_else(|| panic!("{name} covers {freq_hz}"))
+    builtin(name)
+        .unwrap_or_else(|| panic!("{name} is built in"))
+        .at(freq_hz)
+        .unwrap_or_else(|| panic!("{name} covers {freq_hz}"))
 }
 
 fn close(a: f64, b: f64, tol: f64) -> bool {
@@ -18,9 +21,17 @@ fn class_b_conducted_check_values() {
     let qp = [66.00, 63.61, 61.76, 60.24, 57.85, 56.88, 56.00, 56.0, 60.0];
     let av = [56.00, 53.61, 51.76, 50.24, 47.85, 46.88, 46.00, 46.0, 50.0];
     for (i, f) in mhz.iter().enumerate() {
-        for (name, want) in [("cispr32-b-qp", qp[i]), ("fcc15-b-qp", qp[i]), ("cispr32-b-av", av[i]), ("fcc15-b-av", av[i])] {
+        for (name, want) in [
+            ("cispr32-b-qp", qp[i]),
+            ("fcc15-b-qp", qp[i]),
+            ("cispr32-b-av", av[i]),
+            ("fcc15-b-av", av[i]),
+        ] {
             let got = at(name, f * 1e6);
-            assert!(close(got, want, 0.006), "{name} at {f} MHz: {got} (want {want})");
+            assert!(
+                close(got, want, 0.006),
+                "{name} at {f} MHz: {got} (want {want})"
+            );
         }
     }
 }

@@ -41,6 +41,26 @@ impl<E: std::error::Error> From<E> for CliError {
     }
 }
 
+/// `writeln!` into a `String`, which cannot fail.
+macro_rules! outln {
+    ($out:expr) => {
+        $out.push('\n')
+    };
+    ($out:expr, $($arg:tt)*) => {{
+        use std::fmt::Write as _;
+        let _ = writeln!($out, $($arg)*);
+    }};
+}
+
+/// Writes to standard output; a closed pipe (`| head`) is not an error.
+fn emit(text: &str) {
+    use std::io::Write as _;
+    let mut stdout = std::io::stdout().lock();
+    let _ = stdout
+        .write_all(text.as_bytes())
+        .and_then(|()| stdout.flush());
+}
+
 /// Parses the command line, runs it and returns the exit status.
 pub fn run() -> ExitCode {
     let cli = Cli::parse();
@@ -180,7 +200,7 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
     match &a.out {
         Some(path) => std::fs::write(path, text)
             .map_err(|e| CliError(format!("{}: cannot write the report: {e}", path.display())))?,
-        None => print!("{text}"),
+        None => emit(&text),
     }
     if let Some(path) = &a.plot {
         let svg = report::svg::render_svg(&analysis)?;
@@ -195,23 +215,17 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
 }
 
 fn run_limits(l: &LimitsArgs) -> Result<u8, CliError> {
+    let mut out = String::new();
     let Some(name) = &l.name else {
-        println!(
-            "{:<18} {:<11} {:<7} {:>20}  title",
-            "name", "detector", "unit", "range"
-        );
+        outln!(out, "{:<17} {:<14} title", "name", "range");
         for lim in limits::all_builtin() {
             let (a, b) = lim.range_hz();
             let range = format!("{}-{}", fmt_hz(a), fmt_hz(b));
-            println!(
-                "{:<18} {:<11} {:<7} {:>20}  {}",
-                lim.name,
-                lim.detector.name(),
-                lim.quantity.unit(),
-                range,
-                lim.title
-            );
+            outln!(out, "{:<17} {:<14} {}", lim.name, range, lim.title);
         }
+        outln!(out);
+        outln!(out, "`spurhound limits NAME` shows a table and its source.");
+        emit(&out);
         return Ok(PASS);
     };
     let lim = limits::builtin(name).ok_or_else(|| {
@@ -221,32 +235,44 @@ fn run_limits(l: &LimitsArgs) -> Result<u8, CliError> {
             known.join(", ")
         ))
     })?;
-    println!("{}  ({})", lim.name, lim.title);
-    println!("detector {}, unit {}", lim.detector, lim.quantity.unit());
-    println!();
-    println!(
-        "  {:>12} {:>12} {:>12} {:>12}",
-        "from", "to", "limit from", "limit to"
+    outln!(out, "{}  ({})", lim.name, lim.title);
+    outln!(
+        out,
+        "detector {}, unit {}",
+        lim.detector,
+        lim.quantity.unit()
+    );
+    outln!(out);
+    outln!(
+        out,
+        "  {:>12} {:>12} {:>15} {:>15}",
+        "from",
+        "to",
+        "limit at start",
+        "limit at stop"
     );
     for w in lim.vertices.windows(2) {
         let (a, b) = (w[0], w[1]);
         if b.0 > a.0 {
-            println!(
-                "  {:>12} {:>12} {:>9.2} {} {:>9.2} {}",
+            let unit = lim.quantity.unit();
+            let (l0, l1) = (format!("{:.2} {unit}", a.1), format!("{:.2} {unit}", b.1));
+            outln!(
+                out,
+                "  {:>12} {:>12} {l0:>15} {l1:>15}",
                 fmt_hz(a.0),
-                fmt_hz(b.0),
-                a.1,
-                lim.quantity.unit(),
-                b.1,
-                lim.quantity.unit()
+                fmt_hz(b.0)
             );
         }
     }
-    println!();
-    println!(
+    outln!(out);
+    outln!(
+        out,
         "Between rows the limit is linear in log10(f); at a transition the lower value applies."
     );
-    println!("source: {}", lim.source);
+    let mut source = String::new();
+    spurhound::report::text::wrap_into(&mut source, &lim.source, "source: ", "        ");
+    out.push_str(&source);
+    emit(&out);
     Ok(PASS)
 }
 

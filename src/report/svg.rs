@@ -51,7 +51,10 @@ fn draw(a: &Analysis, buf: &mut String) -> Result<(), String> {
         .margin(12)
         .x_label_area_size(44)
         .y_label_area_size(56)
-        .build_cartesian_2d((x0..x1).log_scale(), y0..y1)
+        .build_cartesian_2d(
+            (x0..x1).log_scale().with_key_points(key_points(x0, x1)),
+            y0..y1,
+        )
         .map_err(|e| err(&e))?;
     chart
         .configure_mesh()
@@ -75,14 +78,9 @@ fn draw(a: &Analysis, buf: &mut String) -> Result<(), String> {
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], TRACE));
     for (i, r) in a.limits.iter().enumerate() {
         let colour = LIMITS[i % LIMITS.len()];
-        let pts: Vec<(f64, f64)> = r
-            .limit
-            .vertices
-            .iter()
-            .copied()
-            .filter(|&(f, _)| f >= x0 && f <= x1)
-            .collect();
-        let pts = clip_limit(&r.limit.vertices, x0, x1).unwrap_or(pts);
+        let Some(pts) = clip_limit(&r.limit.vertices, x0, x1) else {
+            continue;
+        };
         chart
             .draw_series(LineSeries::new(pts, colour.stroke_width(2)))
             .map_err(|e| err(&e))?
@@ -132,6 +130,22 @@ fn clip_limit(vertices: &[(f64, f64)], x0: f64, x1: f64) -> Option<Vec<(f64, f64
     pts.extend(vertices.iter().copied().filter(|&(f, _)| f > a && f < b));
     pts.push((b, lim(b)?));
     Some(pts)
+}
+
+/// Axis labels at 1, 2 and 5 times the powers of ten inside [x0, x1].
+fn key_points(x0: f64, x1: f64) -> Vec<f64> {
+    let mut out = Vec::new();
+    let mut decade = 10f64.powf(x0.log10().floor());
+    while decade <= x1 {
+        out.extend(
+            [1.0, 2.0, 5.0]
+                .iter()
+                .map(|m| m * decade)
+                .filter(|&f| f >= x0 && f <= x1),
+        );
+        decade *= 10.0;
+    }
+    out
 }
 
 fn level_at(scan: &Scan, freq_hz: f64) -> f64 {

@@ -13,7 +13,9 @@ pub mod tol {
 
 /// A path under `fixtures/`.
 pub fn fixture(rel: &str) -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("fixtures").join(rel)
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("fixtures")
+        .join(rel)
 }
 
 /// Runs the built binary with `args` from the repository root.
