@@ -38,6 +38,7 @@
 
 pub mod analysis;
 pub mod correct;
+pub mod floor;
 pub mod limits;
 pub mod report;
 pub mod scan;

@@ -1,0 +1,348 @@
+//! Noise floor of a trace and the statistics of its fluctuation.
+//!
+//! A positive-peak detector shows, at each display point, the largest of the IF envelope
+//! samples within the point's frequency bucket. For noise those samples are Rayleigh
+//! distributed, so a displayed noise point is the maximum of `M` Rayleigh samples, and its
+//! level in dB has the quantiles
+//!
+//! ```text
+//! D_q = S + 10·log10(−2·ln(1 − q^(1/M)))
+//! ```
+//!
+//! where `S = 20·log10(σ)` and σ is the Rayleigh parameter (the rms noise is σ·√2). The
+//! shape of the distribution depends on `M` alone; its position on `S`. [`estimate_floor`]
+//! tracks the receiver floor with a robust lower envelope in log-frequency, fits `M` and `S`
+//! to the lower quantiles of the residuals (signals sit in the upper tail), and sets the
+//! detection threshold where the chance that a noise point exceeds it is `false_alarms / N`.
+//!
+//! The Rayleigh law of the noise envelope and the CDF of the maximum of `M` independent
+//! samples, `F(x)^M`, are textbook (any communications or order-statistics text); `M` is
+//! fitted, so a trace taken with a sample, rms or video-filtered detector is handled too
+//! (it just gets another effective `M`).
+
+use crate::scan::Scan;
+use serde::Serialize;
+
+/// Settings of the floor estimate.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FloorParams {
+    /// Half-width of the envelope window in decades of frequency (at least).
+    pub window_decades: f64,
+    /// Half-width of the envelope window in RBWs (at least), when the RBW is known.
+    pub window_rbw: f64,
+    /// Expected number of noise points over the threshold in the whole trace.
+    pub false_alarms: f64,
+}
+
+impl Default for FloorParams {
+    fn default() -> Self {
+        FloorParams {
+            window_decades: 0.1,
+            window_rbw: 20.0,
+            false_alarms: 0.05,
+        }
+    }
+}
+
+/// The floor of one trace.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Floor {
+    /// Median level of a noise-only point, per point (dBµV).
+    pub floor_dbuv: Vec<f64>,
+    /// Detection threshold per point (dBµV).
+    pub threshold_dbuv: Vec<f64>,
+    /// Effective number of independent envelope samples per display point.
+    pub samples_per_point: f64,
+    /// Interquartile range of a noise-only point's level (dB).
+    pub spread_db: f64,
+    /// Chance that a noise-only point exceeds the threshold.
+    pub false_alarm_per_point: f64,
+}
+
+/// Width of the log-frequency bins of the envelope, in decades.
+const BIN_DECADES: f64 = 0.005;
+/// Quantile of the points of one bin (robust to lines that fill part of the bin).
+const BIN_QUANTILE: f64 = 0.25;
+/// Quantile of the bin values across the window (hugs the floor under humps and combs).
+const WINDOW_QUANTILE: f64 = 0.3;
+/// Residual quantiles the noise law is fitted to: the lower part, where noise dominates.
+const FIT_QUANTILES: [f64; 5] = [0.05, 0.1, 0.2, 0.3, 0.4];
+/// The fitted `M` is searched over [1, M_MAX]; a noise-free trace ends at the top.
+const M_MAX: f64 = 1e5;
+/// The threshold stays at least this far over the floor for traces without visible noise
+/// (quantised or smoothed data); 1 dB is below any emission worth reporting.
+const MIN_THRESHOLD_DB: f64 = 1.0;
+
+/// Quantile `q` of the level in dB of the maximum of `m` Rayleigh samples, relative to
+/// `S = 20·log10(σ)`.
+///
+/// # Formula
+/// ```text
+/// D_q − S = 10·log10(−2·ln(1 − q^(1/m)))
+/// ```
+/// # Source
+/// Rayleigh CDF F(x) = 1 − exp(−x²/(2σ²)); the maximum of m independent samples has CDF F^m
+/// (order statistics); solve F(x)^m = q for x.
+pub fn max_rayleigh_quantile_db(q: f64, m: f64) -> f64 {
+    // 1 − q^(1/m) through expm1 keeps precision for q close to 1 and large m.
+    let inner = -(q.ln() / m).exp_m1();
+    10.0 * (-2.0 * inner.ln()).log10()
+}
+
+/// Estimates the floor of `scan`.
+pub fn estimate_floor(scan: &Scan, params: &FloorParams) -> Floor {
+    let levels = scan
+        .level_dbuv
+        .as_slice()
+        .map(<[f64]>::to_vec)
+        .unwrap_or_else(|| scan.level_dbuv.to_vec());
+    let freqs = scan.freq_hz.to_vec();
+    let envelope = lower_envelope(&freqs, &levels, scan.meta.rbw_hz, params);
+    let residuals: Vec<f64> = levels.iter().zip(&envelope).map(|(l, e)| l - e).collect();
+    let (shift, m) = fit_noise(&residuals);
+    let n = levels.len().max(1) as f64;
+    let p = (params.false_alarms / n).clamp(1e-12, 0.5);
+    let median = max_rayleigh_quantile_db(0.5, m);
+    let top = max_rayleigh_quantile_db(1.0 - p, m);
+    let spread_db = max_rayleigh_quantile_db(0.75, m) - max_rayleigh_quantile_db(0.25, m);
+    let over = (top - median).max(MIN_THRESHOLD_DB);
+    let floor_dbuv: Vec<f64> = envelope.iter().map(|e| e + shift + median).collect();
+    let threshold_dbuv = floor_dbuv.iter().map(|f| f + over).collect();
+    Floor {
+        floor_dbuv,
+        threshold_dbuv,
+        samples_per_point: m,
+        spread_db,
+        false_alarm_per_point: p,
+    }
+}
+
+/// A robust lower envelope: the 25 % quantile of each 0.005-decade bin, then the 30 %
+/// quantile of the bins within the window, interpolated back to the points linearly in log f.
+fn lower_envelope(
+    freqs: &[f64],
+    levels: &[f64],
+    rbw_hz: Option<f64>,
+    params: &FloorParams,
+) -> Vec<f64> {
+    let Some(&f0) = freqs.first() else {
+        return Vec::new();
+    };
+    let lf0 = f0.log10();
+    let bin_of = |f: f64| ((f.log10() - lf0) / BIN_DECADES) as usize;
+    let nbins = freqs.last().map_or(1, |&f| bin_of(f) + 1);
+    let mut members: Vec<Vec<f64>> = vec![Vec::new(); nbins];
+    for (&f, &l) in freqs.iter().zip(levels) {
+        members[bin_of(f).min(nbins - 1)].push(l);
+    }
+    // (bin centre in log10 f, bin value)
+    let bins: Vec<(f64, f64)> = members
+        .iter_mut()
+        .enumerate()
+        .filter(|(_, m)| !m.is_empty())
+        .map(|(i, m)| {
+            (
+                lf0 + (i as f64 + 0.5) * BIN_DECADES,
+                quantile_in_place(m, BIN_QUANTILE),
+            )
+        })
+        .collect();
+    let smoothed: Vec<(f64, f64)> = bins
+        .iter()
+        .map(|&(lf, _)| {
+            let f = 10f64.powf(lf);
+            let by_rbw = rbw_hz.map_or(0.0, |r| (1.0 + params.window_rbw * r / f).log10());
+            let half = params.window_decades.max(by_rbw);
+            let lo = bins.partition_point(|b| b.0 < lf - half);
+            let hi = bins.partition_point(|b| b.0 <= lf + half);
+            let mut vals: Vec<f64> = bins[lo..hi].iter().map(|b| b.1).collect();
+            (lf, quantile_in_place(&mut vals, WINDOW_QUANTILE))
+        })
+        .collect();
+    freqs
+        .iter()
+        .map(|&f| interp_sorted(&smoothed, f.log10()))
+        .collect()
+}
+
+/// Linear interpolation in a sorted `(x, y)` table, constant beyond its ends.
+fn interp_sorted(table: &[(f64, f64)], x: f64) -> f64 {
+    let i = table.partition_point(|p| p.0 < x);
+    match (i.checked_sub(1).and_then(|j| table.get(j)), table.get(i)) {
+        (Some(a), Some(b)) if b.0 > a.0 => a.1 + (b.1 - a.1) * (x - a.0) / (b.0 - a.0),
+        (Some(a), _) => a.1,
+        (None, Some(b)) => b.1,
+        (None, None) => 0.0,
+    }
+}
+
+/// The `q` quantile (nearest rank, linear between ranks) of `v`; reorders `v`.
+pub(crate) fn quantile_in_place(v: &mut [f64], q: f64) -> f64 {
+    if v.is_empty() {
+        return f64::NAN;
+    }
+    let pos = q.clamp(0.0, 1.0) * (v.len() - 1) as f64;
+    let lo = pos.floor() as usize;
+    let n = v.len();
+    let (_, &mut a, rest) = v.select_nth_unstable_by(lo, f64::total_cmp);
+    if lo + 1 >= n || pos == lo as f64 {
+        return a;
+    }
+    let b = rest.iter().copied().fold(f64::INFINITY, f64::min);
+    a + (b - a) * (pos - lo as f64)
+}
+
+/// Fits `S` (shift) and `M` of the max-of-M Rayleigh law to the lower residual quantiles:
+/// least squares over [`FIT_QUANTILES`], `M` on a log grid, `S` in closed form (mean offset).
+fn fit_noise(residuals: &[f64]) -> (f64, f64) {
+    let mut r = residuals.to_vec();
+    let observed: Vec<f64> = FIT_QUANTILES
+        .iter()
+        .map(|&q| quantile_in_place(&mut r, q))
+        .collect();
+    let mut best = (f64::INFINITY, 0.0, M_MAX);
+    let steps = 400;
+    for k in 0..=steps {
+        let m = M_MAX.powf(k as f64 / steps as f64);
+        let model: Vec<f64> = FIT_QUANTILES
+            .iter()
+            .map(|&q| max_rayleigh_quantile_db(q, m))
+            .collect();
+        let shift =
+            observed.iter().zip(&model).map(|(o, d)| o - d).sum::<f64>() / model.len() as f64;
+        let err: f64 = observed
+            .iter()
+            .zip(&model)
+            .map(|(o, d)| (o - d - shift).powi(2))
+            .sum();
+        if err < best.0 {
+            best = (err, shift, m);
+        }
+    }
+    (best.1, best.2)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scan::ScanMeta;
+    use rand::{Rng, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+
+    /// Displayed noise: the maximum of m Rayleigh samples of parameter σ, in dBµV.
+    fn noise_trace(n: usize, m: usize, sigma_dbuv: f64, seed: u64) -> Vec<f64> {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let sigma = 10f64.powf(sigma_dbuv / 20.0);
+        (0..n)
+            .map(|_| {
+                let best = (0..m)
+                    .map(|_| {
+                        let u: f64 = rng.random::<f64>().max(1e-300);
+                        sigma * (-2.0 * u.ln()).sqrt() // inverse CDF of the Rayleigh law
+                    })
+                    .fold(0.0, f64::max);
+                20.0 * best.log10()
+            })
+            .collect()
+    }
+
+    fn scan(levels: Vec<f64>) -> Scan {
+        let n = levels.len();
+        let f: Vec<f64> = (0..n)
+            .map(|i| 150e3 + i as f64 * (30e6 - 150e3) / (n - 1) as f64)
+            .collect();
+        Scan::new(
+            f,
+            levels,
+            ScanMeta {
+                rbw_hz: Some(9e3),
+                ..ScanMeta::default()
+            },
+        )
+        .unwrap()
+    }
+
+    #[test]
+    fn rayleigh_quantiles_match_the_closed_form() {
+        // source: Rayleigh median σ·√(2·ln 2) (textbook): 10·log10(2·ln 2) = 1.419 dB over S
+        assert!(
+            (max_rayleigh_quantile_db(0.5, 1.0) - 10.0 * (2.0 * 2f64.ln()).log10()).abs() < 1e-12
+        );
+        // the maximum of m samples: median x with (1 − e^(−x²/2))^m = 0.5
+        let m = 7.0;
+        let x2 = -2.0 * (1.0 - 0.5f64.powf(1.0 / m)).ln();
+        assert!((max_rayleigh_quantile_db(0.5, m) - 10.0 * x2.log10()).abs() < 1e-12);
+        // far tail stays finite and ascending
+        assert!(max_rayleigh_quantile_db(1.0 - 1e-9, 1e4) > max_rayleigh_quantile_db(0.999, 1e4));
+    }
+
+    #[test]
+    fn fits_the_number_of_samples_and_the_level() {
+        for (m, sigma) in [(1usize, 0.0), (4, 10.0), (20, -5.0)] {
+            let f = estimate_floor(
+                &scan(noise_trace(20_000, m, sigma, 7)),
+                &FloorParams::default(),
+            );
+            assert!(
+                (f.samples_per_point / m as f64 - 1.0).abs() < 0.35,
+                "m {m}: fitted {}",
+                f.samples_per_point
+            );
+            let want = sigma + max_rayleigh_quantile_db(0.5, m as f64);
+            let mid = f.floor_dbuv[10_000];
+            assert!((mid - want).abs() < 0.3, "m {m}: floor {mid}, want {want}");
+        }
+    }
+
+    #[test]
+    fn false_alarms_follow_the_fitted_law() {
+        // 200k noise points with threshold at 0.05 expected false alarms per trace: over 20
+        // traces the count is Poisson with mean 1; more than 6 has chance < 1e-3.
+        let mut over = 0;
+        for seed in 0..20 {
+            let t = noise_trace(10_000, 3, 0.0, 100 + seed);
+            let f = estimate_floor(&scan(t.clone()), &FloorParams::default());
+            over += t
+                .iter()
+                .zip(&f.threshold_dbuv)
+                .filter(|(l, th)| l > th)
+                .count();
+        }
+        assert!(over <= 6, "{over} noise points over the threshold");
+    }
+
+    #[test]
+    fn lines_do_not_lift_the_floor() {
+        let mut t = noise_trace(6_000, 2, 0.0, 3);
+        for i in (0..6_000).step_by(20) {
+            for k in 0..4 {
+                if i + k < t.len() {
+                    t[i + k] = 40.0; // lines covering 20 % of the points
+                }
+            }
+        }
+        let f = estimate_floor(&scan(t), &FloorParams::default());
+        let want = max_rayleigh_quantile_db(0.5, 2.0);
+        assert!(
+            (f.floor_dbuv[3_000] - want).abs() < 1.0,
+            "{} vs {want}",
+            f.floor_dbuv[3_000]
+        );
+    }
+
+    #[test]
+    fn a_noise_free_trace_keeps_a_small_threshold() {
+        let f = estimate_floor(&scan(vec![10.0; 500]), &FloorParams::default());
+        assert!((f.floor_dbuv[0] - 10.0).abs() < 0.5, "{}", f.floor_dbuv[0]);
+        let over = f.threshold_dbuv[0] - f.floor_dbuv[0];
+        assert!((MIN_THRESHOLD_DB..3.0).contains(&over), "{over}");
+    }
+
+    #[test]
+    fn quantile_helper() {
+        let mut v = vec![5.0, 1.0, 3.0, 2.0, 4.0];
+        assert_eq!(quantile_in_place(&mut v, 0.5), 3.0);
+        assert_eq!(quantile_in_place(&mut v, 0.25), 2.0);
+        assert_eq!(quantile_in_place(&mut v, 0.125), 1.5);
+    }
+}
