@@ -40,6 +40,7 @@ pub mod analysis;
 pub mod correct;
 pub mod floor;
 pub mod limits;
+pub mod peaks;
 pub mod report;
 pub mod scan;
 pub mod synth;
