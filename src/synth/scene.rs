@@ -330,7 +330,7 @@ impl Scene {
     }
 
     /// Checks every value of the scene. [`parse_scene`] calls it; call it yourself for a scene
-    /// built in code ([`super::render`] does).
+    /// built in code ([`render`](super::render::render) does).
     ///
     /// # Errors
     /// [`SceneError::BadField`] naming the first bad field (`scan.stop_hz`,
