@@ -409,7 +409,15 @@ pub fn fmt_hz(freq_hz: f64) -> String {
     } else {
         (freq_hz, "Hz")
     };
-    let s = format!("{v:.4}");
+    // six significant digits, trailing zeros dropped: 325.482 kHz, 1.10394 MHz, 30 MHz
+    let decimals = if v >= 100.0 {
+        3
+    } else if v >= 10.0 {
+        4
+    } else {
+        5
+    };
+    let s = format!("{v:.decimals$}");
     let s = s.trim_end_matches('0').trim_end_matches('.');
     format!("{s} {unit}")
 }
@@ -510,6 +518,8 @@ mod tests {
     fn frequencies_print_for_people() {
         assert_eq!(fmt_hz(150e3), "150 kHz");
         assert_eq!(fmt_hz(1.2345e6), "1.2345 MHz");
+        assert_eq!(fmt_hz(325_482.4), "325.482 kHz");
+        assert_eq!(fmt_hz(1_103_940.2), "1.10394 MHz");
         assert_eq!(fmt_hz(30e6), "30 MHz");
     }
 }

@@ -37,6 +37,7 @@
 )]
 
 pub mod analysis;
+pub mod bandwidth;
 pub mod correct;
 pub mod floor;
 pub mod limits;

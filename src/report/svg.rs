@@ -11,7 +11,7 @@ use plotters::prelude::*;
 pub const MAX_DRAWN: usize = 3000;
 
 const TRACE: RGBColor = RGBColor(22, 72, 130);
-const AMBIENT: RGBColor = RGBColor(150, 150, 150);
+const AMBIENT: RGBColor = RGBColor(120, 120, 120);
 const LIMITS: [RGBColor; 3] = [
     RGBColor(196, 40, 28),
     RGBColor(225, 130, 0),
@@ -64,18 +64,21 @@ fn draw(a: &Analysis, buf: &mut String) -> Result<(), String> {
         .light_line_style(RGBColor(235, 235, 235))
         .draw()
         .map_err(|e| err(&e))?;
-    for amb in &a.ambient {
-        chart
-            .draw_series(LineSeries::new(reduce(&amb.scan), AMBIENT.stroke_width(1)))
-            .map_err(|e| err(&e))?
-            .label(format!("ambient {}", amb.scan.label()))
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], AMBIENT));
-    }
     chart
         .draw_series(LineSeries::new(reduce(&a.scan), TRACE.stroke_width(1)))
         .map_err(|e| err(&e))?
         .label("DUT")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], TRACE));
+    for amb in &a.ambient {
+        chart
+            .draw_series(LineSeries::new(
+                reduce(&amb.scan),
+                AMBIENT.mix(0.85).stroke_width(1),
+            ))
+            .map_err(|e| err(&e))?
+            .label(format!("ambient: {}", amb.scan.label()))
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], AMBIENT));
+    }
     for (i, r) in a.limits.iter().enumerate() {
         let colour = LIMITS[i % LIMITS.len()];
         let Some(pts) = clip_limit(&r.limit.vertices, x0, x1) else {
