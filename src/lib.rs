@@ -39,6 +39,7 @@
 pub mod analysis;
 pub mod bandwidth;
 pub mod correct;
+pub mod families;
 pub mod floor;
 pub mod limits;
 pub mod peaks;
