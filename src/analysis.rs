@@ -6,8 +6,14 @@
 //! 4. peaks, families and their attribution (filled by the attribution stages; empty for now);
 //! 5. the verdict.
 
+use crate::ambient::{self, AmbientScan, PeakAmbient};
+use crate::attribution::{self, remedies};
+use crate::bandwidth;
 use crate::correct::TransducerChain;
+use crate::families::{self, FamilyFit, FamilyParams, sieve::Pattern};
+use crate::floor::{Floor, FloorParams, estimate_floor};
 use crate::limits::{Limit, Margins, margins};
+use crate::peaks::{FoundPeak, PeakParams, find_peaks};
 use crate::scan::{Detector, Scan};
 use crate::units::Quantity;
 use serde::Serialize;
@@ -66,8 +72,21 @@ pub struct Peak {
     pub margin_db: Option<f64>,
     pub bandwidth: Bandwidth,
     pub origin: Origin,
-    /// Index into [`Analysis::families`] (its `id`).
+    /// The `id` of its family in [`Analysis::families`].
     pub family: Option<usize>,
+    /// Harmonic number in its family.
+    pub harmonic: Option<u32>,
+    pub prominence_db: f64,
+    /// −6 dB width (Hz).
+    pub width_hz: f64,
+    /// Level over the detection threshold (dB).
+    pub significance_db: f64,
+    /// Level over the median noise floor (dB).
+    pub over_floor_db: f64,
+    /// Highest ambient level at the peak, when the ambient shows an emission there.
+    pub ambient_dbuv: Option<f64>,
+    /// Index of the display point at the top.
+    pub point: usize,
 }
 
 /// A harmonic family: one oscillator's lines.
@@ -79,10 +98,44 @@ pub struct Family {
     pub harmonics: Vec<u32>,
     pub kind: Kind,
     pub origin: Origin,
+    /// Smallest margin of its harmonics over every given limit.
     pub worst_margin_db: Option<f64>,
     /// 1 = first to fix.
     pub rank: usize,
     pub remedies: Vec<String>,
+    /// Harmonics over a limit.
+    pub points_over: usize,
+    /// 0 to 1, see [`crate::attribution::rank::confidence`].
+    pub confidence: f64,
+    /// Expected harmonics that are clearly absent.
+    pub misses: usize,
+    /// True when only odd harmonics are predicted (a duty cycle of 50 %).
+    pub odd_only: bool,
+    pub envelope: Option<crate::families::envelope::Envelope>,
+    /// Why the kind was chosen.
+    pub kind_reasons: Vec<String>,
+}
+
+impl Default for Family {
+    fn default() -> Self {
+        Family {
+            id: 0,
+            fundamental_hz: 0.0,
+            fundamental_sigma_hz: 0.0,
+            harmonics: Vec::new(),
+            kind: Kind::Other,
+            origin: Origin::Dut,
+            worst_margin_db: None,
+            rank: 0,
+            remedies: Vec::new(),
+            points_over: 0,
+            confidence: 0.0,
+            misses: 0,
+            odd_only: false,
+            envelope: None,
+            kind_reasons: Vec::new(),
+        }
+    }
 }
 
 /// A check the user should read: a stable code and a sentence with the number and the fix.
@@ -129,8 +182,21 @@ pub struct Analysis {
     pub limits: Vec<LimitResult>,
     pub peaks: Vec<Peak>,
     pub families: Vec<Family>,
+    pub humps: Vec<crate::bandwidth::Hump>,
+    pub floor: FloorSummary,
     pub verdict: Verdict,
     pub warnings: Vec<Warning>,
+}
+
+/// What the floor stage measured.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct FloorSummary {
+    /// Median noise floor over the trace (dBµV).
+    pub median_dbuv: f64,
+    /// Effective independent envelope samples per display point.
+    pub samples_per_point: f64,
+    /// Interquartile range of a noise point (dB).
+    pub spread_db: f64,
 }
 
 /// What can be wrong with the settings of an analysis.
@@ -157,27 +223,130 @@ pub enum SettingsError {
 pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
     let dut = ctx.transducers.apply(scan)?;
     let ambient = correct_ambient(&dut, ctx)?;
-    let limits: Vec<LimitResult> = ctx
-        .limits
+    let limits: Vec<LimitResult> =
+        ctx.limits.iter().map(|l| LimitResult { limit: l.clone(), margins: margins(&dut, l) }).collect();
+    let floor = estimate_floor(&dut, &FloorParams::default());
+    let found = find_peaks(&dut, &floor, &PeakParams::default());
+    let bandwidth = bandwidth::classify(&dut, &found);
+    let humps = bandwidth::find_humps(&dut, &floor, &found, &bandwidth);
+    let fits = families::find_families(&dut, &floor, &found, &FamilyParams::default());
+    let ambient_scans: Vec<AmbientScan> = ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect();
+    let evidence: Vec<PeakAmbient> = found
         .iter()
-        .map(|l| LimitResult {
-            limit: l.clone(),
-            margins: margins(&dut, l),
+        .map(|p| {
+            let half = 0.5 * bandwidth::line_width_hz(&dut, &found, p.index) + bandwidth::local_step(&dut, p.index);
+            ambient::peak_origin(p, &ambient_scans, half)
         })
         .collect();
+    let mut peaks = build_peaks(&found, &bandwidth, &evidence, &limits);
+    let families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
     let verdict = verdict(&limits);
     let mut warnings = Vec::new();
     check_setup(&dut, &ctx.limits, &limits, &mut warnings);
     check_ambient(&dut, &ambient, &mut warnings);
-    Ok(Analysis {
-        scan: dut,
-        ambient,
-        limits,
-        peaks: Vec::new(),
-        families: Vec::new(),
-        verdict,
-        warnings,
-    })
+    let floor = summarise(&floor);
+    Ok(Analysis { scan: dut, ambient, limits, peaks, families, humps, floor, verdict, warnings })
+}
+
+fn summarise(floor: &Floor) -> FloorSummary {
+    let mut f = floor.floor_dbuv.clone();
+    FloorSummary {
+        median_dbuv: crate::floor::quantile_in_place(&mut f, 0.5),
+        samples_per_point: floor.samples_per_point,
+        spread_db: floor.spread_db,
+    }
+}
+
+/// Smallest margin of point `index` over every limit.
+fn worst_margin_at(limits: &[LimitResult], index: usize) -> Option<f64> {
+    limits.iter().filter_map(|r| r.margins.margin_db.get(index).copied().flatten()).reduce(f64::min)
+}
+
+fn build_peaks(found: &[FoundPeak], bandwidth: &[Bandwidth], evidence: &[PeakAmbient], limits: &[LimitResult]) -> Vec<Peak> {
+    let main = limits.first();
+    found
+        .iter()
+        .enumerate()
+        .map(|(k, p)| {
+            let limit_dbuv = main.and_then(|r| r.margins.limit_dbuv.get(p.index).copied().flatten());
+            Peak {
+                freq_hz: p.freq_hz,
+                level_dbuv: p.level_dbuv,
+                limit_dbuv,
+                margin_db: limit_dbuv.map(|l| l - p.level_dbuv),
+                bandwidth: bandwidth[k],
+                origin: evidence[k].origin,
+                family: None,
+                harmonic: None,
+                prominence_db: p.prominence_db,
+                width_hz: p.width_hz,
+                significance_db: p.significance_db,
+                over_floor_db: p.over_floor_db,
+                ambient_dbuv: evidence[k].ambient_dbuv,
+                point: p.index,
+            }
+        })
+        .collect()
+}
+
+/// Families from the fits: origin from their members, kind from the evidence, margins over
+/// every limit, remedies; then ranked. Marks each member peak with its family.
+fn build_families(fits: &[FamilyFit], peaks: &mut [Peak], limits: &[LimitResult], dut: &Scan, no_ambient: bool) -> Vec<Family> {
+    let conducted = dut.meta.quantity == Quantity::Voltage && dut.span_hz().1 <= 30e6 * 1.001;
+    let mut out: Vec<Family> = Vec::with_capacity(fits.len());
+    for (k, fit) in fits.iter().enumerate() {
+        let id = k + 1;
+        let member_origins: Vec<Origin> = fit.members.iter().map(|&(i, _)| peaks[i].origin).collect();
+        let origin = if no_ambient {
+            if fit.raster.is_some() { Origin::Ambient } else { Origin::Dut }
+        } else {
+            ambient::family_origin(&member_origins)
+        };
+        let (kind, kind_reasons) = attribution::kind::classify(fit, origin);
+        let margins: Vec<(f64, Option<f64>)> = fit
+            .members
+            .iter()
+            .map(|&(i, _)| (peaks[i].freq_hz, worst_margin_at(limits, found_index(peaks, i))))
+            .collect();
+        let worst_margin_db = margins.iter().filter_map(|m| m.1).reduce(f64::min);
+        let failing: Vec<f64> = margins.iter().filter(|m| m.1.is_some_and(|x| x < 0.0)).map(|m| m.0).collect();
+        let need = remedies::Need {
+            kind,
+            origin,
+            fundamental_hz: fit.fundamental_hz,
+            failing_hz: &failing,
+            dithered: fit.envelope.spread_pct.is_some(),
+            conducted,
+        };
+        for &(i, n) in &fit.members {
+            peaks[i].family = Some(id);
+            peaks[i].harmonic = Some(n);
+        }
+        out.push(Family {
+            id,
+            fundamental_hz: fit.fundamental_hz,
+            fundamental_sigma_hz: fit.sigma_hz,
+            harmonics: fit.members.iter().map(|m| m.1).collect(),
+            kind,
+            origin,
+            worst_margin_db,
+            rank: 0,
+            remedies: remedies::remedies(&need),
+            points_over: failing.len(),
+            confidence: attribution::rank::confidence(fit.members.len(), fit.misses),
+            misses: fit.misses,
+            odd_only: fit.pattern == Pattern::OddOnly,
+            envelope: Some(fit.envelope.clone()),
+            kind_reasons,
+        });
+    }
+    attribution::rank::rank(&mut out);
+    out
+}
+
+/// The display point of peak `i` (peaks keep the order of the found peaks).
+fn found_index(peaks: &[Peak], i: usize) -> usize {
+    peaks.get(i).map_or(0, |p| p.point)
 }
 
 fn correct_ambient(dut: &Scan, ctx: &Context) -> Result<Vec<AmbientResult>, crate::Error> {

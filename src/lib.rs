@@ -36,7 +36,9 @@
     deny(clippy::unwrap_used, clippy::expect_used, clippy::panic)
 )]
 
+pub mod ambient;
 pub mod analysis;
+pub mod attribution;
 pub mod bandwidth;
 pub mod correct;
 pub mod families;

@@ -49,11 +49,13 @@ pub struct SieveParams {
     pub miss_penalty: f64,
     /// A hit lies within this many standard uncertainties of its harmonic.
     pub tolerance_sigmas: f64,
+    /// More clearly absent harmonics in a row than this end a family's run.
+    pub max_gap: usize,
 }
 
 impl Default for SieveParams {
     fn default() -> Self {
-        SieveParams { seeds: 40, max_divisor: 40, miss_penalty: 0.6, tolerance_sigmas: 3.0 }
+        SieveParams { seeds: 40, max_divisor: 40, miss_penalty: 0.6, tolerance_sigmas: 3.0, max_gap: 3 }
     }
 }
 
@@ -111,7 +113,8 @@ impl Sieve<'_> {
             if n < 1.0 || (pattern == Pattern::OddOnly && n % 2.0 == 0.0) {
                 continue;
             }
-            let tol = self.params.tolerance_sigmas * l.sigma_hz.hypot(n * sigma_f0);
+            // a hit must name its harmonic without doubt: never wider than a tenth of f0
+            let tol = (self.params.tolerance_sigmas * l.sigma_hz.hypot(n * sigma_f0)).min(0.1 * f0);
             let r = (l.freq_hz - n * f0).abs() / tol;
             if r <= 1.0 {
                 best.push((n as u32, i, r));
@@ -121,28 +124,46 @@ impl Sieve<'_> {
         best.sort_by(|a, b| a.0.cmp(&b.0).then(a.2.total_cmp(&b.2)));
         best.dedup_by_key(|h| h.0);
         let hits: Vec<(usize, u32)> = best.iter().map(|&(n, i, _)| (i, n)).collect();
-        let misses = self.count_misses(f0, pattern, &hits);
+        let (hits, misses) = self.alive_run(f0, pattern, &hits);
         let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
         let value = gain - self.params.miss_penalty * misses as f64;
         Candidate { fundamental_hz: f0, sigma_hz: sigma_f0, pattern, hits, misses, value }
     }
 
-    /// Slots between the first and last hit with no hit and nothing over the threshold.
-    fn count_misses(&self, f0: f64, pattern: Pattern, hits: &[(usize, u32)]) -> usize {
-        let (Some(first), Some(last)) = (hits.first(), hits.last()) else { return 0 };
+    /// The run of harmonic slots where the family is alive: slots from the first to the last
+    /// hit are split wherever more than `max_gap` harmonics in a row are clearly absent (the
+    /// envelope has sunk into the floor; a sinc null leaves a gap of one or two); the run with
+    /// the best value wins. Returns its hits and its misses (clearly absent harmonics; a slot
+    /// where the trace shows something else is neither hit nor miss).
+    fn alive_run(&self, f0: f64, pattern: Pattern, hits: &[(usize, u32)]) -> (Vec<(usize, u32)>, usize) {
+        let (Some(first), Some(last)) = (hits.first(), hits.last()) else { return (Vec::new(), 0) };
         let step = if pattern == Pattern::OddOnly { 2 } else { 1 };
-        let mut k = 0;
-        let mut misses = 0;
+        let lambda = self.params.miss_penalty;
+        // (first hit index, last hit index, misses, value) of each run
+        let mut runs: Vec<(usize, usize, usize, f64)> = Vec::new();
+        let mut cur: Option<(usize, usize, usize, f64)> = None;
+        let (mut k, mut gap) = (0usize, 0usize);
         let mut n = first.1;
         while n <= last.1 {
             if hits.get(k).is_some_and(|h| h.1 == n) {
+                let w = self.lines[hits[k].0].weight;
+                cur = Some(match cur {
+                    Some((a, _, m, v)) => (a, k, m + gap, v + w - lambda * gap as f64),
+                    None => (k, k, 0, w),
+                });
                 k += 1;
+                gap = 0;
             } else if !self.is_occupied(f64::from(n) * f0) {
-                misses += 1;
+                gap += 1;
+                if gap > self.params.max_gap {
+                    runs.extend(cur.take());
+                }
             }
             n += step;
         }
-        misses
+        runs.extend(cur);
+        let Some(best) = runs.into_iter().max_by(|a, b| a.3.total_cmp(&b.3)) else { return (Vec::new(), 0) };
+        (hits[best.0..=best.1].to_vec(), best.2)
     }
 
     fn is_occupied(&self, freq_hz: f64) -> bool {
@@ -150,28 +171,39 @@ impl Sieve<'_> {
         k > 0 && freq_hz <= self.occupied[k - 1].1
     }
 
-    /// The best candidate among all, refined twice by weighted least squares.
-    pub fn best(&self) -> Option<Candidate> {
-        let mut best: Option<Candidate> = None;
-        for (f0, s) in self.candidates() {
-            for pattern in [Pattern::All, Pattern::OddOnly] {
-                let c = self.score(f0, s, pattern);
-                if best.as_ref().is_none_or(|b| better(&c, b)) {
-                    best = Some(c);
-                }
-            }
-        }
-        let mut c = best?;
+    /// A candidate scored, refined by weighted least squares on its hits and scored again,
+    /// twice: a fundamental taken from one line is rough, and its far harmonics only fall into
+    /// place once the near ones have fixed it.
+    pub fn refined(&self, f0: f64, sigma_f0: f64, pattern: Pattern) -> Candidate {
+        let mut c = self.score(f0, sigma_f0, pattern);
         for _ in 0..2 {
             let members: Vec<Member> = c
                 .hits
                 .iter()
                 .map(|&(i, n)| Member { n, freq_hz: self.lines[i].freq_hz, sigma_hz: self.lines[i].sigma_hz })
                 .collect();
-            let (f0, s) = fit_fundamental(&members)?;
-            c = self.score(f0, s, c.pattern);
+            let Some((f, s)) = fit_fundamental(&members) else { break };
+            let next = self.score(f, s, c.pattern);
+            if next.value < c.value - 1e-9 {
+                break;
+            }
+            c = next;
         }
-        Some(c)
+        c
+    }
+
+    /// The best refined candidate among all.
+    pub fn best(&self) -> Option<Candidate> {
+        let mut best: Option<Candidate> = None;
+        for (f0, s) in self.candidates() {
+            for pattern in [Pattern::All, Pattern::OddOnly] {
+                let c = self.refined(f0, s, pattern);
+                if best.as_ref().is_none_or(|b| better(&c, b)) {
+                    best = Some(c);
+                }
+            }
+        }
+        best
     }
 }
 
@@ -253,7 +285,8 @@ mod tests {
         let f = [594e3, 693e3, 909e3, 1089e3, 1422e3];
         let l = lines(&f);
         let s = sieve(&l, &[]);
-        assert!(s.score(9e3, 1.0, Pattern::All).value < 0.0);
+        // each station is a run of its own: dozens of empty channels lie between them
+        assert!(s.score(9e3, 1.0, Pattern::All).hits.len() < 3);
     }
 
     #[test]

@@ -22,6 +22,8 @@ pub struct Document<'a> {
     pub limits: Vec<LimitDoc>,
     pub peaks: Vec<PeakDoc>,
     pub families: Vec<FamilyDoc<'a>>,
+    pub humps: &'a [crate::bandwidth::Hump],
+    pub floor: crate::analysis::FloorSummary,
     pub ambient: Vec<AmbientDoc>,
     pub verdict: VerdictDoc,
     pub warnings: &'a [Warning],
@@ -68,6 +70,11 @@ pub struct PeakDoc {
     pub bandwidth: Bandwidth,
     pub origin: Origin,
     pub family: Option<usize>,
+    pub harmonic: Option<u32>,
+    pub prominence_db: f64,
+    pub width_hz: f64,
+    pub significance_db: f64,
+    pub ambient_dbuv: Option<f64>,
 }
 
 #[derive(Debug, Serialize)]
@@ -81,6 +88,12 @@ pub struct FamilyDoc<'a> {
     pub worst_margin_db: Option<f64>,
     pub rank: usize,
     pub remedies: &'a [String],
+    pub confidence: f64,
+    pub points_over: usize,
+    pub misses: usize,
+    pub odd_only: bool,
+    pub envelope: Option<&'a crate::families::envelope::Envelope>,
+    pub kind_reasons: &'a [String],
 }
 
 #[derive(Debug, Serialize)]
@@ -115,6 +128,11 @@ fn peak_doc(p: &Peak) -> PeakDoc {
         bandwidth: p.bandwidth,
         origin: p.origin,
         family: p.family,
+        harmonic: p.harmonic,
+        prominence_db: p.prominence_db,
+        width_hz: p.width_hz,
+        significance_db: p.significance_db,
+        ambient_dbuv: p.ambient_dbuv,
     }
 }
 
@@ -129,6 +147,12 @@ fn family_doc(f: &Family) -> FamilyDoc<'_> {
         worst_margin_db: f.worst_margin_db,
         rank: f.rank,
         remedies: &f.remedies,
+        confidence: f.confidence,
+        points_over: f.points_over,
+        misses: f.misses,
+        odd_only: f.odd_only,
+        envelope: f.envelope.as_ref(),
+        kind_reasons: &f.kind_reasons,
     }
 }
 
@@ -170,6 +194,8 @@ pub fn document(a: &Analysis) -> Document<'_> {
             .collect(),
         peaks: a.peaks.iter().map(peak_doc).collect(),
         families: a.families.iter().map(family_doc).collect(),
+        humps: &a.humps,
+        floor: a.floor,
         ambient: a
             .ambient
             .iter()

@@ -1,0 +1,5 @@
+//! Attribution: the kind of each family, its rank, and what to do about it.
+
+pub mod kind;
+pub mod rank;
+pub mod remedies;
