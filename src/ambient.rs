@@ -27,7 +27,10 @@ pub struct AmbientScan<'a> {
 impl<'a> AmbientScan<'a> {
     /// Estimates the floor of `scan`.
     pub fn new(scan: &'a Scan) -> Self {
-        AmbientScan { scan, floor: estimate_floor(scan, &FloorParams::default()) }
+        AmbientScan {
+            scan,
+            floor: estimate_floor(scan, &FloorParams::default()),
+        }
     }
 
     /// The highest ambient level within `half_hz` of `freq_hz`, and whether it is over the
@@ -36,8 +39,13 @@ impl<'a> AmbientScan<'a> {
         let f = self.scan.freq_hz.as_slice()?;
         let lo = f.partition_point(|&x| x < freq_hz - half_hz);
         let hi = f.partition_point(|&x| x <= freq_hz + half_hz);
-        let (lo, hi) = if lo < hi { (lo, hi) } else { nearest(f, freq_hz)? };
-        let top = (lo..hi).max_by(|&a, &b| self.scan.level_dbuv[a].total_cmp(&self.scan.level_dbuv[b]))?;
+        let (lo, hi) = if lo < hi {
+            (lo, hi)
+        } else {
+            nearest(f, freq_hz)?
+        };
+        let top = (lo..hi)
+            .max_by(|&a, &b| self.scan.level_dbuv[a].total_cmp(&self.scan.level_dbuv[b]))?;
         let level = self.scan.level_dbuv[top];
         Some((level, level > self.floor.threshold_dbuv[top]))
     }
@@ -68,17 +76,35 @@ pub struct PeakAmbient {
 /// scan (half a line width plus a display step covers a line on another grid).
 pub fn peak_origin(peak: &FoundPeak, ambient: &[AmbientScan], half_hz: f64) -> PeakAmbient {
     if ambient.is_empty() {
-        return PeakAmbient { origin: Origin::Unknown, ambient_dbuv: None, spread_db: 0.0 };
+        return PeakAmbient {
+            origin: Origin::Unknown,
+            ambient_dbuv: None,
+            spread_db: 0.0,
+        };
     }
-    let seen: Vec<(f64, bool)> = ambient.iter().filter_map(|a| a.level_near(peak.freq_hz, half_hz)).collect();
+    let seen: Vec<(f64, bool)> = ambient
+        .iter()
+        .filter_map(|a| a.level_near(peak.freq_hz, half_hz))
+        .collect();
     let present: Vec<f64> = seen.iter().filter(|s| s.1).map(|s| s.0).collect();
     let spread_db = spread(&seen.iter().map(|s| s.0).collect::<Vec<_>>());
     let Some(top) = present.iter().copied().reduce(f64::max) else {
-        return PeakAmbient { origin: Origin::Dut, ambient_dbuv: None, spread_db };
+        return PeakAmbient {
+            origin: Origin::Dut,
+            ambient_dbuv: None,
+            spread_db,
+        };
     };
-    let origin =
-        if peak.level_dbuv - top <= SAME_LEVEL_DB + 2.0 * spread_db { Origin::Ambient } else { Origin::Mixed };
-    PeakAmbient { origin, ambient_dbuv: Some(top), spread_db }
+    let origin = if peak.level_dbuv - top <= SAME_LEVEL_DB + 2.0 * spread_db {
+        Origin::Ambient
+    } else {
+        Origin::Mixed
+    };
+    PeakAmbient {
+        origin,
+        ambient_dbuv: Some(top),
+        spread_db,
+    }
 }
 
 /// Sample standard deviation of the ambient levels, at least [`MIN_SPREAD_DB`];
@@ -117,9 +143,23 @@ mod tests {
         let l: Vec<f64> = f
             .iter()
             .enumerate()
-            .map(|(i, &x)| if (x - at).abs() < 5e3 { level } else { 5.0 + ((i * 7919) % 13) as f64 * 0.3 })
+            .map(|(i, &x)| {
+                if (x - at).abs() < 5e3 {
+                    level
+                } else {
+                    5.0 + ((i * 7919) % 13) as f64 * 0.3
+                }
+            })
             .collect();
-        Scan::new(f, l, ScanMeta { rbw_hz: Some(9e3), ..ScanMeta::default() }).unwrap()
+        Scan::new(
+            f,
+            l,
+            ScanMeta {
+                rbw_hz: Some(9e3),
+                ..ScanMeta::default()
+            },
+        )
+        .unwrap()
     }
 
     fn peak(freq_hz: f64, level_dbuv: f64) -> FoundPeak {
@@ -142,11 +182,20 @@ mod tests {
     fn same_level_is_ambient_higher_is_mixed_absent_is_dut() {
         let amb = flat_with_line(909e3, 45.0);
         let a = [AmbientScan::new(&amb)];
-        assert_eq!(peak_origin(&peak(909e3, 46.0), &a, 9e3).origin, Origin::Ambient);
+        assert_eq!(
+            peak_origin(&peak(909e3, 46.0), &a, 9e3).origin,
+            Origin::Ambient
+        );
         // 20 dB over the ambient carrier: the DUT adds its own emission there
-        assert_eq!(peak_origin(&peak(909e3, 65.0), &a, 9e3).origin, Origin::Mixed);
+        assert_eq!(
+            peak_origin(&peak(909e3, 65.0), &a, 9e3).origin,
+            Origin::Mixed
+        );
         assert_eq!(peak_origin(&peak(2e6, 50.0), &a, 9e3).origin, Origin::Dut);
-        assert_eq!(peak_origin(&peak(2e6, 50.0), &[], 9e3).origin, Origin::Unknown);
+        assert_eq!(
+            peak_origin(&peak(2e6, 50.0), &[], 9e3).origin,
+            Origin::Unknown
+        );
     }
 
     #[test]

@@ -223,18 +223,26 @@ pub enum SettingsError {
 pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
     let dut = ctx.transducers.apply(scan)?;
     let ambient = correct_ambient(&dut, ctx)?;
-    let limits: Vec<LimitResult> =
-        ctx.limits.iter().map(|l| LimitResult { limit: l.clone(), margins: margins(&dut, l) }).collect();
+    let limits: Vec<LimitResult> = ctx
+        .limits
+        .iter()
+        .map(|l| LimitResult {
+            limit: l.clone(),
+            margins: margins(&dut, l),
+        })
+        .collect();
     let floor = estimate_floor(&dut, &FloorParams::default());
     let found = find_peaks(&dut, &floor, &PeakParams::default());
     let bandwidth = bandwidth::classify(&dut, &found);
     let humps = bandwidth::find_humps(&dut, &floor, &found, &bandwidth);
-    let fits = families::find_families(&dut, &floor, &found, &FamilyParams::default());
-    let ambient_scans: Vec<AmbientScan> = ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect();
+    let fits = families::find_families(&dut, &floor, &found, &humps, &FamilyParams::default());
+    let ambient_scans: Vec<AmbientScan> =
+        ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect();
     let evidence: Vec<PeakAmbient> = found
         .iter()
         .map(|p| {
-            let half = 0.5 * bandwidth::line_width_hz(&dut, &found, p.index) + bandwidth::local_step(&dut, p.index);
+            let half = 0.5 * bandwidth::line_width_hz(&dut, &found, p.index)
+                + bandwidth::local_step(&dut, p.index);
             ambient::peak_origin(p, &ambient_scans, half)
         })
         .collect();
@@ -245,7 +253,17 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
     check_setup(&dut, &ctx.limits, &limits, &mut warnings);
     check_ambient(&dut, &ambient, &mut warnings);
     let floor = summarise(&floor);
-    Ok(Analysis { scan: dut, ambient, limits, peaks, families, humps, floor, verdict, warnings })
+    Ok(Analysis {
+        scan: dut,
+        ambient,
+        limits,
+        peaks,
+        families,
+        humps,
+        floor,
+        verdict,
+        warnings,
+    })
 }
 
 fn summarise(floor: &Floor) -> FloorSummary {
@@ -259,16 +277,25 @@ fn summarise(floor: &Floor) -> FloorSummary {
 
 /// Smallest margin of point `index` over every limit.
 fn worst_margin_at(limits: &[LimitResult], index: usize) -> Option<f64> {
-    limits.iter().filter_map(|r| r.margins.margin_db.get(index).copied().flatten()).reduce(f64::min)
+    limits
+        .iter()
+        .filter_map(|r| r.margins.margin_db.get(index).copied().flatten())
+        .reduce(f64::min)
 }
 
-fn build_peaks(found: &[FoundPeak], bandwidth: &[Bandwidth], evidence: &[PeakAmbient], limits: &[LimitResult]) -> Vec<Peak> {
+fn build_peaks(
+    found: &[FoundPeak],
+    bandwidth: &[Bandwidth],
+    evidence: &[PeakAmbient],
+    limits: &[LimitResult],
+) -> Vec<Peak> {
     let main = limits.first();
     found
         .iter()
         .enumerate()
         .map(|(k, p)| {
-            let limit_dbuv = main.and_then(|r| r.margins.limit_dbuv.get(p.index).copied().flatten());
+            let limit_dbuv =
+                main.and_then(|r| r.margins.limit_dbuv.get(p.index).copied().flatten());
             Peak {
                 freq_hz: p.freq_hz,
                 level_dbuv: p.level_dbuv,
@@ -291,14 +318,25 @@ fn build_peaks(found: &[FoundPeak], bandwidth: &[Bandwidth], evidence: &[PeakAmb
 
 /// Families from the fits: origin from their members, kind from the evidence, margins over
 /// every limit, remedies; then ranked. Marks each member peak with its family.
-fn build_families(fits: &[FamilyFit], peaks: &mut [Peak], limits: &[LimitResult], dut: &Scan, no_ambient: bool) -> Vec<Family> {
+fn build_families(
+    fits: &[FamilyFit],
+    peaks: &mut [Peak],
+    limits: &[LimitResult],
+    dut: &Scan,
+    no_ambient: bool,
+) -> Vec<Family> {
     let conducted = dut.meta.quantity == Quantity::Voltage && dut.span_hz().1 <= 30e6 * 1.001;
     let mut out: Vec<Family> = Vec::with_capacity(fits.len());
     for (k, fit) in fits.iter().enumerate() {
         let id = k + 1;
-        let member_origins: Vec<Origin> = fit.members.iter().map(|&(i, _)| peaks[i].origin).collect();
+        let member_origins: Vec<Origin> =
+            fit.members.iter().map(|&(i, _)| peaks[i].origin).collect();
         let origin = if no_ambient {
-            if fit.raster.is_some() { Origin::Ambient } else { Origin::Dut }
+            if fit.raster.is_some() {
+                Origin::Ambient
+            } else {
+                Origin::Dut
+            }
         } else {
             ambient::family_origin(&member_origins)
         };
@@ -306,10 +344,19 @@ fn build_families(fits: &[FamilyFit], peaks: &mut [Peak], limits: &[LimitResult]
         let margins: Vec<(f64, Option<f64>)> = fit
             .members
             .iter()
-            .map(|&(i, _)| (peaks[i].freq_hz, worst_margin_at(limits, found_index(peaks, i))))
+            .map(|&(i, _)| {
+                (
+                    peaks[i].freq_hz,
+                    worst_margin_at(limits, found_index(peaks, i)),
+                )
+            })
             .collect();
         let worst_margin_db = margins.iter().filter_map(|m| m.1).reduce(f64::min);
-        let failing: Vec<f64> = margins.iter().filter(|m| m.1.is_some_and(|x| x < 0.0)).map(|m| m.0).collect();
+        let failing: Vec<f64> = margins
+            .iter()
+            .filter(|m| m.1.is_some_and(|x| x < 0.0))
+            .map(|m| m.0)
+            .collect();
         let need = remedies::Need {
             kind,
             origin,

@@ -79,72 +79,56 @@ pub fn classify(scan: &Scan, peaks: &[FoundPeak]) -> Vec<Bandwidth> {
         .collect()
 }
 
-/// Broadband regions: runs of points over the detection threshold, outside the narrowband
-/// peaks' extents, at least [`HUMP_MIN_WIDTHS`] line widths wide; runs closer than two line
-/// widths merge.
+/// Share of the points within ±[`HUMP_WINDOW_WIDTHS`] line widths that must be over the
+/// detection threshold for a point to be part of a hump: a lone line fills about a third of that
+/// window, two lines a channel apart about 60 %, a broadband plateau all of it.
+pub const HUMP_FILL: f64 = 0.8;
+/// Half-width of the fill window in line widths.
+pub const HUMP_WINDOW_WIDTHS: f64 = 1.5;
+
+/// Broadband regions: runs of points around which at least [`HUMP_FILL`] of the trace is over
+/// the detection threshold, at least [`HUMP_MIN_WIDTHS`] line widths wide.
 pub fn find_humps(
     scan: &Scan,
     floor: &Floor,
     peaks: &[FoundPeak],
-    bandwidth: &[Bandwidth],
+    _bandwidth: &[Bandwidth],
 ) -> Vec<Hump> {
-    let f = scan
-        .freq_hz
-        .as_slice()
-        .map(<[f64]>::to_vec)
-        .unwrap_or_else(|| scan.freq_hz.to_vec());
+    let f = scan.freq_hz.to_vec();
     let x = scan.level_dbuv.to_vec();
-    let mut lines: Vec<(f64, f64)> = peaks
-        .iter()
-        .zip(bandwidth)
-        .filter(|(_, b)| **b == Bandwidth::Narrowband)
-        .map(|(p, _)| (p.left_hz, p.right_hz))
-        .collect();
-    lines.sort_by(|a, b| a.0.total_cmp(&b.0));
-    let in_line = |freq: f64| {
-        let k = lines.partition_point(|l| l.0 <= freq);
-        k > 0 && freq <= lines[k - 1].1
-    };
-    let mut runs: Vec<(usize, usize)> = Vec::new();
-    let mut start: Option<usize> = None;
+    // prefix counts of points over the threshold
+    let mut over = Vec::with_capacity(f.len() + 1);
+    over.push(0usize);
     for i in 0..f.len() {
-        let over = x[i] > floor.threshold_dbuv[i] && !in_line(f[i]);
-        match (over, start) {
-            (true, None) => start = Some(i),
-            (false, Some(s)) => {
-                runs.push((s, i - 1));
-                start = None;
-            }
-            _ => {}
+        let up = floor.threshold_dbuv.get(i).is_some_and(|t| x[i] > *t);
+        over.push(over[i] + usize::from(up));
+    }
+    let line = line_width_hz(scan, peaks, f.len() / 2);
+    let filled: Vec<bool> = (0..f.len())
+        .map(|i| {
+            let half = HUMP_WINDOW_WIDTHS * line_width_hz(scan, peaks, i).max(line.min(f64::MAX));
+            let lo = f.partition_point(|&v| v < f[i] - half);
+            let hi = f.partition_point(|&v| v <= f[i] + half);
+            hi > lo + 2 && (over[hi] - over[lo]) as f64 >= HUMP_FILL * (hi - lo) as f64
+        })
+        .collect();
+    let mut humps = Vec::new();
+    let mut i = 0;
+    while i < f.len() {
+        if !filled[i] {
+            i += 1;
+            continue;
         }
-    }
-    if let Some(s) = start {
-        runs.push((s, f.len() - 1));
-    }
-    let merged = merge_runs(scan, peaks, &f, runs);
-    merged
-        .into_iter()
-        .filter(|&(s, e)| f[e] - f[s] >= HUMP_MIN_WIDTHS * line_width_hz(scan, peaks, s))
-        .map(|(s, e)| hump_of(&f, &x, floor, s, e))
-        .collect()
-}
-
-fn merge_runs(
-    scan: &Scan,
-    peaks: &[FoundPeak],
-    f: &[f64],
-    runs: Vec<(usize, usize)>,
-) -> Vec<(usize, usize)> {
-    let mut merged: Vec<(usize, usize)> = Vec::new();
-    for r in runs {
-        match merged.last_mut() {
-            Some(last) if f[r.0] - f[last.1] <= 2.0 * line_width_hz(scan, peaks, r.0) => {
-                last.1 = r.1
-            }
-            _ => merged.push(r),
+        let s = i;
+        while i + 1 < f.len() && filled[i + 1] {
+            i += 1;
         }
+        if f[i] - f[s] >= HUMP_MIN_WIDTHS * line_width_hz(scan, peaks, s) {
+            humps.push(hump_of(&f, &x, floor, s, i));
+        }
+        i += 1;
     }
-    merged
+    humps
 }
 
 fn hump_of(f: &[f64], x: &[f64], floor: &Floor, s: usize, e: usize) -> Hump {

@@ -10,8 +10,9 @@ use crate::families::sieve::Pattern;
 /// Standard crystal and oscillator frequencies (Hz): METHODS.md §10 (32.768 kHz; UART and
 /// video divisors; the round values; USB, Ethernet and radio references).
 pub const CRYSTALS_HZ: [f64; 27] = [
-    32.768e3, 1.8432e6, 3.579545e6, 4e6, 8e6, 10e6, 11.0592e6, 12e6, 14.31818e6, 16e6, 19.2e6, 19.6608e6, 20e6,
-    24e6, 25e6, 26e6, 27e6, 32e6, 38.4e6, 40e6, 48e6, 50e6, 66.666e6, 100e6, 125e6, 133.333e6, 156.25e6,
+    32.768e3, 1.8432e6, 3.579545e6, 4e6, 8e6, 10e6, 11.0592e6, 12e6, 14.31818e6, 16e6, 19.2e6,
+    19.6608e6, 20e6, 24e6, 25e6, 26e6, 27e6, 32e6, 38.4e6, 40e6, 48e6, 50e6, 66.666e6, 100e6,
+    125e6, 133.333e6, 156.25e6,
 ];
 
 /// A fundamental this close to a crystal value (relative) matches it: ±200 ppm covers a
@@ -29,7 +30,12 @@ pub fn classify(fit: &FamilyFit, origin: Origin) -> (Kind, Vec<String>) {
     if let Some(x) = crystal_match(f0) {
         clock += 2.0;
         switching -= 1.0;
-        reasons.push(format!("{} is within {:.0} ppm of the standard crystal value {}", hz(f0), (f0 / x - 1.0).abs() * 1e6, hz(x)));
+        reasons.push(format!(
+            "{} is within {:.0} ppm of the standard crystal value {}",
+            hz(f0),
+            (f0 / x - 1.0).abs() * 1e6,
+            hz(x)
+        ));
     }
     let odd = fit.pattern == Pattern::OddOnly || fit.envelope.even_fraction < 0.25;
     if odd {
@@ -42,7 +48,10 @@ pub fn classify(fit: &FamilyFit, origin: Origin) -> (Kind, Vec<String>) {
     }
     if (20e3..=5e6).contains(&f0) {
         switching += 1.5;
-        reasons.push(format!("{} lies in the range of switching converters (20 kHz to 5 MHz)", hz(f0)));
+        reasons.push(format!(
+            "{} lies in the range of switching converters (20 kHz to 5 MHz)",
+            hz(f0)
+        ));
     }
     if f0 >= 1e6 {
         clock += 1.0;
@@ -58,18 +67,31 @@ pub fn classify(fit: &FamilyFit, origin: Origin) -> (Kind, Vec<String>) {
         lighting += 1.0;
         if origin == Origin::Ambient {
             lighting += 2.0;
-            reasons.push(format!("{} in the electronic-ballast range (20 to 100 kHz) and in the ambient", hz(f0)));
+            reasons.push(format!(
+                "{} in the electronic-ballast range (20 to 100 kHz) and in the ambient",
+                hz(f0)
+            ));
         }
     }
-    let best = [(Kind::Clock, clock), (Kind::Switching, switching), (Kind::Lighting, lighting)]
-        .into_iter()
-        .fold((Kind::Other, 1.0), |acc, k| if k.1 > acc.1 { k } else { acc });
+    let best = [
+        (Kind::Clock, clock),
+        (Kind::Switching, switching),
+        (Kind::Lighting, lighting),
+    ]
+    .into_iter()
+    .fold(
+        (Kind::Other, 1.0),
+        |acc, k| if k.1 > acc.1 { k } else { acc },
+    );
     (best.0, reasons)
 }
 
 /// The crystal value a fundamental matches, or one whose small multiple it is not.
 pub fn crystal_match(f0_hz: f64) -> Option<f64> {
-    CRYSTALS_HZ.iter().copied().find(|&x| (f0_hz / x - 1.0).abs() <= CRYSTAL_MATCH)
+    CRYSTALS_HZ
+        .iter()
+        .copied()
+        .find(|&x| (f0_hz / x - 1.0).abs() <= CRYSTAL_MATCH)
 }
 
 fn hz(f: f64) -> String {
@@ -102,25 +124,43 @@ mod tests {
     #[test]
     fn crystal_square_wave_is_a_clock() {
         // source: METHODS §10, 25 MHz Ethernet reference (common practice)
-        assert_eq!(classify(&fit(25.0012e6, Pattern::OddOnly, 0.0, None), Origin::Dut).0, Kind::Clock);
+        assert_eq!(
+            classify(&fit(25.0012e6, Pattern::OddOnly, 0.0, None), Origin::Dut).0,
+            Kind::Clock
+        );
     }
 
     #[test]
     fn converter_range_with_even_harmonics_is_switching() {
-        assert_eq!(classify(&fit(412.3e3, Pattern::All, 0.9, None), Origin::Dut).0, Kind::Switching);
-        assert_eq!(classify(&fit(65.4e3, Pattern::All, 0.8, None), Origin::Dut).0, Kind::Switching);
+        assert_eq!(
+            classify(&fit(412.3e3, Pattern::All, 0.9, None), Origin::Dut).0,
+            Kind::Switching
+        );
+        assert_eq!(
+            classify(&fit(65.4e3, Pattern::All, 0.8, None), Origin::Dut).0,
+            Kind::Switching
+        );
     }
 
     #[test]
     fn ambient_ballast_is_lighting() {
-        assert_eq!(classify(&fit(42.1e3, Pattern::OddOnly, 0.0, None), Origin::Ambient).0, Kind::Lighting);
+        assert_eq!(
+            classify(&fit(42.1e3, Pattern::OddOnly, 0.0, None), Origin::Ambient).0,
+            Kind::Lighting
+        );
         // the same comb from the DUT is not called lighting on the prior alone
-        assert_ne!(classify(&fit(42.1e3, Pattern::All, 0.9, None), Origin::Dut).0, Kind::Lighting);
+        assert_ne!(
+            classify(&fit(42.1e3, Pattern::All, 0.9, None), Origin::Dut).0,
+            Kind::Lighting
+        );
     }
 
     #[test]
     fn converter_above_a_megahertz_is_not_a_clock() {
         // 2.2 MHz with even harmonics is a converter, not a clock
-        assert_eq!(classify(&fit(2.2e6, Pattern::All, 1.0, None), Origin::Dut).0, Kind::Switching);
+        assert_eq!(
+            classify(&fit(2.2e6, Pattern::All, 1.0, None), Origin::Dut).0,
+            Kind::Switching
+        );
     }
 }

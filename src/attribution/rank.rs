@@ -63,7 +63,11 @@ mod tests {
 
     #[test]
     fn ambient_never_outranks_the_dut() {
-        let mut f = vec![fam(1, Origin::Ambient, Some(-20.0)), fam(2, Origin::Dut, Some(3.0)), fam(3, Origin::Dut, Some(-5.0))];
+        let mut f = vec![
+            fam(1, Origin::Ambient, Some(-20.0)),
+            fam(2, Origin::Dut, Some(3.0)),
+            fam(3, Origin::Dut, Some(-5.0)),
+        ];
         rank(&mut f);
         assert_eq!((f[0].rank, f[1].rank, f[2].rank), (3, 2, 1));
     }

@@ -78,7 +78,14 @@ mod tests {
 
     #[test]
     fn conducted_converter_below_5_mhz_gets_a_differential_mode_filter() {
-        let need = Need { kind: Kind::Switching, origin: Origin::Dut, fundamental_hz: 65e3, failing_hz: &[325e3], dithered: false, conducted: true };
+        let need = Need {
+            kind: Kind::Switching,
+            origin: Origin::Dut,
+            fundamental_hz: 65e3,
+            failing_hz: &[325e3],
+            dithered: false,
+            conducted: true,
+        };
         let r = remedies(&need);
         assert!(r[0].starts_with("differential mode"), "{r:?}");
         assert!(!r.iter().any(|s| s.starts_with("common mode")));
@@ -86,15 +93,32 @@ mod tests {
 
     #[test]
     fn failures_above_5_mhz_get_common_mode_fixes() {
-        let need = Need { kind: Kind::Switching, origin: Origin::Dut, fundamental_hz: 400e3, failing_hz: &[12e6], dithered: true, conducted: true };
+        let need = Need {
+            kind: Kind::Switching,
+            origin: Origin::Dut,
+            fundamental_hz: 400e3,
+            failing_hz: &[12e6],
+            dithered: true,
+            conducted: true,
+        };
         let r = remedies(&need);
         assert!(r[0].starts_with("common mode"), "{r:?}");
-        assert!(!r.iter().any(|s| s.contains("spread-spectrum")), "already dithered");
+        assert!(
+            !r.iter().any(|s| s.contains("spread-spectrum")),
+            "already dithered"
+        );
     }
 
     #[test]
     fn ambient_families_are_not_fixed_on_the_board() {
-        let need = Need { kind: Kind::Broadcast, origin: Origin::Ambient, fundamental_hz: 9e3, failing_hz: &[], dithered: false, conducted: true };
+        let need = Need {
+            kind: Kind::Broadcast,
+            origin: Origin::Ambient,
+            fundamental_hz: 9e3,
+            failing_hz: &[],
+            dithered: false,
+            conducted: true,
+        };
         assert!(remedies(&need)[0].starts_with("ambient broadcast"));
     }
 }

@@ -41,7 +41,9 @@ pub fn linear_fit(points: &[(f64, f64)]) -> Option<(f64, f64)> {
     if points.len() < 2 {
         return None;
     }
-    let (mx, my) = points.iter().fold((0.0, 0.0), |(a, b), p| (a + p.0 / k, b + p.1 / k));
+    let (mx, my) = points
+        .iter()
+        .fold((0.0, 0.0), |(a, b), p| (a + p.0 / k, b + p.1 / k));
     let sxx: f64 = points.iter().map(|p| (p.0 - mx).powi(2)).sum();
     if sxx <= 0.0 {
         return None;
@@ -58,26 +60,43 @@ pub fn linear_fit(points: &[(f64, f64)]) -> Option<(f64, f64)> {
 /// spread-spectrum rule in METHODS §9 uses Δf_n = n·Δf). The growth counts only when the
 /// widest harmonic is at least half a line width wider than a single line.
 pub fn describe(harmonics: &[Harmonic], f0_hz: f64, line_width_hz: f64) -> Envelope {
-    let levels: Vec<(f64, f64)> =
-        harmonics.iter().map(|h| ((f0_hz * f64::from(h.n)).log10(), h.level_dbuv)).collect();
+    let levels: Vec<(f64, f64)> = harmonics
+        .iter()
+        .map(|h| ((f0_hz * f64::from(h.n)).log10(), h.level_dbuv))
+        .collect();
     let slope_db_per_decade = linear_fit(&levels).map(|(b, _)| b);
     let mean = |odd: bool| {
-        let v: Vec<f64> = harmonics.iter().filter(|h| (h.n % 2 == 1) == odd).map(|h| h.level_dbuv).collect();
+        let v: Vec<f64> = harmonics
+            .iter()
+            .filter(|h| (h.n % 2 == 1) == odd)
+            .map(|h| h.level_dbuv)
+            .collect();
         (!v.is_empty()).then(|| v.iter().sum::<f64>() / v.len() as f64)
     };
     let odd_over_even_db = mean(true).zip(mean(false)).map(|(o, e)| o - e);
     let even_fraction = even_fraction(harmonics);
-    let excess: Vec<(f64, f64)> =
-        harmonics.iter().map(|h| (f64::from(h.n), (h.width_hz - line_width_hz).max(0.0))).collect();
+    let excess: Vec<(f64, f64)> = harmonics
+        .iter()
+        .map(|h| (f64::from(h.n), (h.width_hz - line_width_hz).max(0.0)))
+        .collect();
     let growth = linear_fit(&excess).map(|(b, _)| b);
     let widest = excess.iter().map(|p| p.1).fold(0.0, f64::max);
     let dithered = growth.is_some_and(|g| g > 0.0) && widest > 0.5 * line_width_hz;
     let spread_pct = dithered.then(|| growth.unwrap_or(0.0) / f0_hz * 100.0);
-    Envelope { slope_db_per_decade, odd_over_even_db, even_fraction, width_growth_hz: growth, spread_pct }
+    Envelope {
+        slope_db_per_decade,
+        odd_over_even_db,
+        even_fraction,
+        width_growth_hz: growth,
+        spread_pct,
+    }
 }
 
 fn even_fraction(harmonics: &[Harmonic]) -> f64 {
-    let (Some(lo), Some(hi)) = (harmonics.iter().map(|h| h.n).min(), harmonics.iter().map(|h| h.n).max()) else {
+    let (Some(lo), Some(hi)) = (
+        harmonics.iter().map(|h| h.n).min(),
+        harmonics.iter().map(|h| h.n).max(),
+    ) else {
         return 0.0;
     };
     let slots = (lo..=hi).filter(|n| n % 2 == 0).count();
@@ -101,11 +120,19 @@ mod tests {
             .map(|k| {
                 let n = 2 * k + 1;
                 let c = trapezoid_harmonic_peak(n, 1.0, 10e-6, 0.5, 10e-9);
-                Harmonic { n, level_dbuv: 20.0 * (c / 2f64.sqrt() / 1e-6).log10(), width_hz: 9e3 }
+                Harmonic {
+                    n,
+                    level_dbuv: 20.0 * (c / 2f64.sqrt() / 1e-6).log10(),
+                    width_hz: 9e3,
+                }
             })
             .collect();
         let e = describe(&h, 100e3, 9e3);
-        assert!((e.slope_db_per_decade.unwrap() + 20.0).abs() < 0.5, "{:?}", e.slope_db_per_decade);
+        assert!(
+            (e.slope_db_per_decade.unwrap() + 20.0).abs() < 0.5,
+            "{:?}",
+            e.slope_db_per_decade
+        );
         assert_eq!(e.odd_over_even_db, None);
         assert_eq!(e.even_fraction, 0.0);
         assert_eq!(e.spread_pct, None);
@@ -114,8 +141,13 @@ mod tests {
     #[test]
     fn width_growing_with_n_gives_the_spread() {
         // 1.2 MHz dithered over 4 % peak to peak: excess width n · 48 kHz
-        let h: Vec<Harmonic> =
-            (1..=6).map(|n| Harmonic { n, level_dbuv: 50.0, width_hz: 9e3 + f64::from(n) * 48e3 }).collect();
+        let h: Vec<Harmonic> = (1..=6)
+            .map(|n| Harmonic {
+                n,
+                level_dbuv: 50.0,
+                width_hz: 9e3 + f64::from(n) * 48e3,
+            })
+            .collect();
         let e = describe(&h, 1.2e6, 9e3);
         assert!((e.spread_pct.unwrap() - 4.0).abs() < 1e-9);
         assert_eq!(e.even_fraction, 1.0);
@@ -123,7 +155,10 @@ mod tests {
 
     #[test]
     fn least_squares_line() {
-        assert_eq!(linear_fit(&[(0.0, 1.0), (1.0, 3.0), (2.0, 5.0)]), Some((2.0, 1.0)));
+        assert_eq!(
+            linear_fit(&[(0.0, 1.0), (1.0, 3.0), (2.0, 5.0)]),
+            Some((2.0, 1.0))
+        );
         assert_eq!(linear_fit(&[(1.0, 1.0), (1.0, 3.0)]), None);
     }
 }

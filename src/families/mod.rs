@@ -10,12 +10,12 @@ pub mod raster;
 pub mod refine;
 pub mod sieve;
 
-use crate::bandwidth::{line_width_hz, local_step};
+use crate::bandwidth::{Hump, line_width_hz, local_step};
 use crate::floor::Floor;
 use crate::peaks::FoundPeak;
 use crate::scan::Scan;
 use envelope::{Envelope, Harmonic};
-use sieve::{Line, Pattern, Sieve, SieveParams};
+use sieve::{Candidate, Line, Pattern, Sieve, SieveParams};
 
 /// Settings of the family search.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -33,7 +33,13 @@ pub struct FamilyParams {
 
 impl Default for FamilyParams {
     fn default() -> Self {
-        FamilyParams { sieve: SieveParams::default(), min_harmonics: 3, min_value: 2.5, min_hit_ratio: 0.6, max_families: 40 }
+        FamilyParams {
+            sieve: SieveParams::default(),
+            min_harmonics: 3,
+            min_value: 2.5,
+            min_hit_ratio: 0.6,
+            max_families: 40,
+        }
     }
 }
 
@@ -77,48 +83,178 @@ fn occupied(scan: &Scan, floor: &Floor) -> Vec<(f64, f64)> {
     out
 }
 
-/// Finds the families among `peaks`.
-pub fn find_families(scan: &Scan, floor: &Floor, peaks: &[FoundPeak], params: &FamilyParams) -> Vec<FamilyFit> {
-    let lines: Vec<Line> = peaks
+/// How the sieve sees the peaks. A hump (a dithered harmonic shows as one) offers a single line:
+/// its highest peak, placed at the hump's centre with an uncertainty of a twentieth of its width
+/// plus a quarter of a line width (the edges of a plateau are found within about a line width); the
+/// other peaks inside it are not offered. Returns the lines, which are free, and the width each
+/// line stands for.
+pub fn offered_lines(
+    scan: &Scan,
+    peaks: &[FoundPeak],
+    humps: &[Hump],
+) -> (Vec<Line>, Vec<bool>, Vec<f64>) {
+    let mut lines: Vec<Line> = peaks
         .iter()
         .map(|p| Line {
             freq_hz: p.freq_hz,
             sigma_hz: peak_sigma_hz(scan, peaks, p),
             weight: 1.0 + p.significance_db.clamp(0.0, 20.0) / 20.0,
+            strength_db: p.significance_db,
+            width_hz: p.width_hz,
         })
         .collect();
+    let mut free = vec![true; peaks.len()];
+    let mut widths: Vec<f64> = peaks.iter().map(|p| p.width_hz).collect();
+    for h in humps {
+        let inside: Vec<usize> = (0..peaks.len())
+            .filter(|&i| peaks[i].freq_hz >= h.start_hz && peaks[i].freq_hz <= h.stop_hz)
+            .collect();
+        let Some(&top) = inside
+            .iter()
+            .max_by(|&&a, &&b| peaks[a].level_dbuv.total_cmp(&peaks[b].level_dbuv))
+        else {
+            continue;
+        };
+        for &i in &inside {
+            free[i] = false;
+        }
+        let width = h.stop_hz - h.start_hz;
+        let line = line_width_hz(scan, peaks, peaks[top].index);
+        free[top] = true;
+        lines[top].freq_hz = 0.5 * (h.start_hz + h.stop_hz);
+        lines[top].sigma_hz = 0.05 * width + 0.25 * line;
+        lines[top].width_hz = width;
+        widths[top] = width;
+    }
+    (lines, free, widths)
+}
+
+/// Finds the families among `peaks` and `humps`.
+pub fn find_families(
+    scan: &Scan,
+    floor: &Floor,
+    peaks: &[FoundPeak],
+    humps: &[Hump],
+    params: &FamilyParams,
+) -> Vec<FamilyFit> {
+    let (lines, free, widths) = offered_lines(scan, peaks, humps);
     let occupied = occupied(scan, floor);
-    let median_line = peaks.get(peaks.len() / 2).map_or(0.0, |p| line_width_hz(scan, peaks, p.index));
+    let median_line = peaks
+        .get(peaks.len() / 2)
+        .map_or(0.0, |p| line_width_hz(scan, peaks, p.index));
     let mut sieve = Sieve {
         lines: &lines,
-        free: vec![true; lines.len()],
+        free,
         min_fundamental_hz: (1.5 * median_line).max(1.0),
         occupied: &occupied,
         params: params.sieve,
     };
-    let mut out = Vec::new();
-    while out.len() < params.max_families {
-        let Some(c) = sieve.best() else { break };
+    let mut found: Vec<Candidate> = Vec::new();
+    let mut rounds = 0;
+    while found.len() < params.max_families && rounds < 4 * params.max_families {
+        rounds += 1;
+        let Some(mut c) = sieve.best() else { break };
         let seen = c.hits.len();
         let ratio = seen as f64 / (seen + c.misses) as f64;
-        if seen < params.min_harmonics || c.value < params.min_value || ratio < params.min_hit_ratio {
+        if seen < params.min_harmonics || c.value < params.min_value || ratio < params.min_hit_ratio
+        {
             break;
         }
+        drop_intruders(&mut c.hits, &widths);
         for &(i, _) in &c.hits {
             sieve.free[i] = false;
         }
-        out.push(fit_of(scan, peaks, c.fundamental_hz, c.sigma_hz, c.pattern, c.hits, c.misses, None));
+        if !absorb(&mut found, &c, &lines) {
+            found.push(c);
+        }
     }
+    let mut out: Vec<FamilyFit> = found
+        .into_iter()
+        .map(|c| {
+            fit_of(
+                scan,
+                peaks,
+                &widths,
+                c.fundamental_hz,
+                c.reported_sigma_hz,
+                c.pattern,
+                c.hits,
+                c.misses,
+                None,
+            )
+        })
+        .collect();
     if let Some(r) = broadcast_raster(peaks, &lines, &sieve.free) {
         let (f0, members) = r;
-        out.push(fit_of(scan, peaks, f0.step_hz, 0.0, Pattern::All, members, 0, Some(f0.name)));
+        out.push(fit_of(
+            scan,
+            peaks,
+            &widths,
+            f0.step_hz,
+            0.0,
+            Pattern::All,
+            members,
+            0,
+            Some(f0.name),
+        ));
     }
     out
 }
 
-fn broadcast_raster(peaks: &[FoundPeak], lines: &[Line], free: &[bool]) -> Option<(raster::Raster, Vec<(usize, u32)>)> {
+/// Share of a new candidate's lines that must sit on an earlier family's harmonics for them to
+/// be that family's (its far harmonics, seen again past a stretch where they sank into the floor).
+const ABSORB_SHARE: f64 = 0.8;
+
+/// Gives the lines of `c` to an earlier family when at least [`ABSORB_SHARE`] of them lie on its
+/// harmonics (within three uncertainties); returns whether it did. A comb's far harmonics
+/// otherwise come back as a family at a multiple of its fundamental.
+fn absorb(found: &mut [Candidate], c: &Candidate, lines: &[Line]) -> bool {
+    for fam in found.iter_mut() {
+        let f0 = fam.fundamental_hz;
+        let on: Vec<(usize, u32)> = c
+            .hits
+            .iter()
+            .filter_map(|&(i, _)| {
+                let l = &lines[i];
+                let n = (l.freq_hz / f0).round();
+                let odd_ok = fam.pattern == Pattern::All || n % 2.0 == 1.0;
+                let tol = 3.0 * l.sigma_hz.hypot(n * fam.sigma_hz);
+                (n >= 1.0 && odd_ok && (l.freq_hz - n * f0).abs() <= tol).then_some((i, n as u32))
+            })
+            .collect();
+        if on.len() as f64 >= ABSORB_SHARE * c.hits.len() as f64 {
+            fam.hits.extend(on);
+            fam.hits.sort_by_key(|h| h.1);
+            fam.hits.dedup_by_key(|h| h.1);
+            return true;
+        }
+    }
+    false
+}
+
+/// A member much wider than the family's typical member is another source's emission that
+/// happens to sit on a harmonic (a dithered converter's plateau on a narrow comb): more than
+/// four times the median width of the members. A dithered family's widths grow smoothly with n,
+/// so its widest member is about twice its median.
+fn drop_intruders(hits: &mut Vec<(usize, u32)>, widths: &[f64]) {
+    let mut w: Vec<f64> = hits.iter().map(|&(i, _)| widths[i]).collect();
+    if w.len() < 3 {
+        return;
+    }
+    let median = crate::floor::quantile_in_place(&mut w, 0.5);
+    hits.retain(|&(i, _)| widths[i] <= 4.0 * median);
+}
+
+fn broadcast_raster(
+    peaks: &[FoundPeak],
+    lines: &[Line],
+    free: &[bool],
+) -> Option<(raster::Raster, Vec<(usize, u32)>)> {
     let offered: Vec<usize> = (0..peaks.len()).filter(|&i| free[i]).collect();
-    let pairs: Vec<(f64, f64)> = offered.iter().map(|&i| (lines[i].freq_hz, lines[i].sigma_hz)).collect();
+    let pairs: Vec<(f64, f64)> = offered
+        .iter()
+        .map(|&i| (lines[i].freq_hz, lines[i].sigma_hz))
+        .collect();
     let m = raster::match_raster(&pairs)?;
     let members = m.members.iter().map(|&(k, n)| (offered[k], n)).collect();
     Some((m.raster, members))
@@ -128,6 +264,7 @@ fn broadcast_raster(peaks: &[FoundPeak], lines: &[Line], free: &[bool]) -> Optio
 fn fit_of(
     scan: &Scan,
     peaks: &[FoundPeak],
+    widths: &[f64],
     f0: f64,
     sigma: f64,
     pattern: Pattern,
@@ -137,9 +274,23 @@ fn fit_of(
 ) -> FamilyFit {
     let harmonics: Vec<Harmonic> = members
         .iter()
-        .map(|&(i, n)| Harmonic { n, level_dbuv: peaks[i].level_dbuv, width_hz: peaks[i].width_hz })
+        .map(|&(i, n)| Harmonic {
+            n,
+            level_dbuv: peaks[i].level_dbuv,
+            width_hz: widths[i],
+        })
         .collect();
-    let line = members.first().map_or(0.0, |&(i, _)| line_width_hz(scan, peaks, peaks[i].index));
+    let line = members
+        .first()
+        .map_or(0.0, |&(i, _)| line_width_hz(scan, peaks, peaks[i].index));
     let envelope = envelope::describe(&harmonics, f0, line);
-    FamilyFit { fundamental_hz: f0, sigma_hz: sigma, pattern, members, misses, envelope, raster }
+    FamilyFit {
+        fundamental_hz: f0,
+        sigma_hz: sigma,
+        pattern,
+        members,
+        misses,
+        envelope,
+        raster,
+    }
 }

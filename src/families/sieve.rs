@@ -4,7 +4,7 @@
 //!
 //! Scoring costs O(lines + harmonic slots) per candidate, never a loop over the trace's points.
 
-use super::refine::{Member, fit_fundamental};
+use super::refine::{Member, fit};
 
 /// A line offered to the sieve.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -14,7 +14,15 @@ pub struct Line {
     pub sigma_hz: f64,
     /// Evidence weight of a hit on this line, 1 to 2 (stronger lines weigh more).
     pub weight: f64,
+    /// Significance over the detection threshold (dB): the strongest lines seed candidates.
+    pub strength_db: f64,
+    /// Width of the emission (Hz): a line wider than [`MAX_WIDTH_SHARE`] of a fundamental
+    /// cannot be one harmonic of it (its neighbours would overlap it).
+    pub width_hz: f64,
 }
+
+/// Widest emission, as a share of the fundamental, that can be one harmonic.
+pub const MAX_WIDTH_SHARE: f64 = 0.7;
 
 /// Which harmonics a candidate predicts.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -36,6 +44,9 @@ pub struct Candidate {
     /// Harmonic slots between the first and last hit where nothing at all shows.
     pub misses: usize,
     pub value: f64,
+    /// Uncertainty of the fundamental from the members' scatter (reported); equals
+    /// `sigma_hz` before refinement.
+    pub reported_sigma_hz: f64,
 }
 
 /// Settings of the sieve.
@@ -51,11 +62,21 @@ pub struct SieveParams {
     pub tolerance_sigmas: f64,
     /// More clearly absent harmonics in a row than this end a family's run.
     pub max_gap: usize,
+    /// A family must be less likely than this to arise from lines at random (see
+    /// [`Sieve::chance`]); a few thousand candidates are tried, so it is small.
+    pub max_chance: f64,
 }
 
 impl Default for SieveParams {
     fn default() -> Self {
-        SieveParams { seeds: 40, max_divisor: 40, miss_penalty: 0.6, tolerance_sigmas: 3.0, max_gap: 3 }
+        SieveParams {
+            seeds: 40,
+            max_divisor: 40,
+            miss_penalty: 0.6,
+            tolerance_sigmas: 3.0,
+            max_gap: 3,
+            max_chance: 1e-5,
+        }
     }
 }
 
@@ -74,7 +95,11 @@ impl Sieve<'_> {
     /// Candidate fundamentals (Hz) with their uncertainties, from the strongest free lines.
     pub fn candidates(&self) -> Vec<(f64, f64)> {
         let mut seeds: Vec<usize> = (0..self.lines.len()).filter(|&i| self.free[i]).collect();
-        seeds.sort_by(|&a, &b| self.lines[b].weight.total_cmp(&self.lines[a].weight));
+        seeds.sort_by(|&a, &b| {
+            self.lines[b]
+                .strength_db
+                .total_cmp(&self.lines[a].strength_db)
+        });
         seeds.truncate(self.params.seeds);
         let mut out: Vec<(f64, f64)> = Vec::new();
         for &s in &seeds {
@@ -106,15 +131,14 @@ impl Sieve<'_> {
     pub fn score(&self, f0: f64, sigma_f0: f64, pattern: Pattern) -> Candidate {
         let mut best: Vec<(u32, usize, f64)> = Vec::new(); // (n, line, normalised residual)
         for (i, l) in self.lines.iter().enumerate() {
-            if !self.free[i] {
+            if !self.free[i] || l.width_hz > MAX_WIDTH_SHARE * f0 {
                 continue;
             }
             let n = (l.freq_hz / f0).round();
             if n < 1.0 || (pattern == Pattern::OddOnly && n % 2.0 == 0.0) {
                 continue;
             }
-            // a hit must name its harmonic without doubt: never wider than a tenth of f0
-            let tol = (self.params.tolerance_sigmas * l.sigma_hz.hypot(n * sigma_f0)).min(0.1 * f0);
+            let tol = self.tolerance(l, n, f0, sigma_f0);
             let r = (l.freq_hz - n * f0).abs() / tol;
             if r <= 1.0 {
                 best.push((n as u32, i, r));
@@ -127,7 +151,65 @@ impl Sieve<'_> {
         let (hits, misses) = self.alive_run(f0, pattern, &hits);
         let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
         let value = gain - self.params.miss_penalty * misses as f64;
-        Candidate { fundamental_hz: f0, sigma_hz: sigma_f0, pattern, hits, misses, value }
+        Candidate {
+            fundamental_hz: f0,
+            sigma_hz: sigma_f0,
+            pattern,
+            hits,
+            misses,
+            value,
+            reported_sigma_hz: sigma_f0,
+        }
+    }
+
+    /// Tolerance of a hit on line `l` at harmonic `n` of a fundamental `f0 ± sigma_f0`.
+    fn tolerance(&self, l: &Line, n: f64, f0: f64, sigma_f0: f64) -> f64 {
+        // a hit must name its harmonic without doubt: never wider than a tenth of f0
+        (self.params.tolerance_sigmas * l.sigma_hz.hypot(n * sigma_f0)).min(0.1 * f0)
+    }
+
+    /// The chance that lines at random give this many hits: each free line within the run's
+    /// span lands within tolerance of a predicted harmonic with its own probability
+    /// p_i = 2·tol_i/f0 (halved when only odd harmonics are predicted); the number of hits then
+    /// follows the Poisson-binomial law of those trials, whose upper tail is summed exactly.
+    ///
+    /// # Formula
+    /// ```text
+    /// P(k hits after i trials) = P_{i−1}(k)·(1 − p_i) + P_{i−1}(k − 1)·p_i;  chance = Σ_{k ≥ h} P_T(k)
+    /// ```
+    /// # Source
+    /// The Poisson-binomial distribution (sum of independent Bernoulli trials with unequal
+    /// probabilities), computed by its standard recursion.
+    pub fn chance(&self, c: &Candidate) -> f64 {
+        let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
+            return 1.0;
+        };
+        let f0 = c.fundamental_hz;
+        let (lo, hi) = (
+            (f64::from(first.1) - 0.5) * f0,
+            (f64::from(last.1) + 0.5) * f0,
+        );
+        let share = if c.pattern == Pattern::OddOnly {
+            0.5
+        } else {
+            1.0
+        };
+        let probs: Vec<f64> = self
+            .lines
+            .iter()
+            .enumerate()
+            .filter(|&(i, l)| {
+                self.free[i]
+                    && l.freq_hz >= lo
+                    && l.freq_hz <= hi
+                    && l.width_hz <= MAX_WIDTH_SHARE * f0
+            })
+            .map(|(_, l)| {
+                let n = (l.freq_hz / f0).round().max(1.0);
+                (2.0 * self.tolerance(l, n, f0, c.sigma_hz) / f0 * share).min(1.0)
+            })
+            .collect();
+        poisson_binomial_tail(&probs, c.hits.len())
     }
 
     /// The run of harmonic slots where the family is alive: slots from the first to the last
@@ -135,8 +217,15 @@ impl Sieve<'_> {
     /// envelope has sunk into the floor; a sinc null leaves a gap of one or two); the run with
     /// the best value wins. Returns its hits and its misses (clearly absent harmonics; a slot
     /// where the trace shows something else is neither hit nor miss).
-    fn alive_run(&self, f0: f64, pattern: Pattern, hits: &[(usize, u32)]) -> (Vec<(usize, u32)>, usize) {
-        let (Some(first), Some(last)) = (hits.first(), hits.last()) else { return (Vec::new(), 0) };
+    fn alive_run(
+        &self,
+        f0: f64,
+        pattern: Pattern,
+        hits: &[(usize, u32)],
+    ) -> (Vec<(usize, u32)>, usize) {
+        let (Some(first), Some(last)) = (hits.first(), hits.last()) else {
+            return (Vec::new(), 0);
+        };
         let step = if pattern == Pattern::OddOnly { 2 } else { 1 };
         let lambda = self.params.miss_penalty;
         // (first hit index, last hit index, misses, value) of each run
@@ -162,7 +251,9 @@ impl Sieve<'_> {
             n += step;
         }
         runs.extend(cur);
-        let Some(best) = runs.into_iter().max_by(|a, b| a.3.total_cmp(&b.3)) else { return (Vec::new(), 0) };
+        let Some(best) = runs.into_iter().max_by(|a, b| a.3.total_cmp(&b.3)) else {
+            return (Vec::new(), 0);
+        };
         (hits[best.0..=best.1].to_vec(), best.2)
     }
 
@@ -171,40 +262,96 @@ impl Sieve<'_> {
         k > 0 && freq_hz <= self.occupied[k - 1].1
     }
 
-    /// A candidate scored, refined by weighted least squares on its hits and scored again,
-    /// twice: a fundamental taken from one line is rough, and its far harmonics only fall into
-    /// place once the near ones have fixed it.
+    /// A candidate scored and refined by weighted least squares, growing outwards: first on
+    /// the hits up to twice the lowest harmonic, then four times, and so on, each time keeping
+    /// only the hits that agree with the fit so far within three of their uncertainties. A
+    /// fundamental taken from one line is rough; its far harmonics only fall into place once the
+    /// near ones have fixed it, and a far line that happens to lie close to a rough harmonic
+    /// must not steer the fit.
     pub fn refined(&self, f0: f64, sigma_f0: f64, pattern: Pattern) -> Candidate {
         let mut c = self.score(f0, sigma_f0, pattern);
-        for _ in 0..2 {
-            let members: Vec<Member> = c
-                .hits
-                .iter()
-                .map(|&(i, n)| Member { n, freq_hz: self.lines[i].freq_hz, sigma_hz: self.lines[i].sigma_hz })
-                .collect();
-            let Some((f, s)) = fit_fundamental(&members) else { break };
-            let next = self.score(f, s, c.pattern);
-            if next.value < c.value - 1e-9 {
+        let Some(lowest) = c.hits.first().map(|h| h.1) else {
+            return c;
+        };
+        let top = c.hits.last().map_or(lowest, |h| h.1);
+        let mut reach = lowest.saturating_mul(2).max(lowest + 2);
+        loop {
+            let Some(f) = self.refit(&c, reach) else {
+                break;
+            };
+            let mut next = self.score(f.fundamental_hz, f.stated_sigma_hz, c.pattern);
+            next.reported_sigma_hz = f.sigma_hz;
+            c = next;
+            if reach >= top.max(c.hits.last().map_or(0, |h| h.1)) {
                 break;
             }
-            c = next;
+            reach = reach.saturating_mul(2);
+        }
+        if let Some(f) = self.refit(&c, u32::MAX) {
+            c.reported_sigma_hz = f.sigma_hz;
         }
         c
     }
 
-    /// The best refined candidate among all.
+    /// Weighted least squares on the hits up to harmonic `reach` that agree with the candidate
+    /// within three of their uncertainties (its own and the candidate's, scaled by n).
+    fn refit(&self, c: &Candidate, reach: u32) -> Option<super::refine::Fit> {
+        let members: Vec<Member> = c
+            .hits
+            .iter()
+            .filter(|&&(i, n)| {
+                let l = &self.lines[i];
+                let nf = f64::from(n);
+                n <= reach
+                    && (l.freq_hz - nf * c.fundamental_hz).abs()
+                        <= 3.0 * l.sigma_hz.hypot(nf * c.sigma_hz)
+            })
+            .map(|&(i, n)| Member {
+                n,
+                freq_hz: self.lines[i].freq_hz,
+                sigma_hz: self.lines[i].sigma_hz,
+            })
+            .collect();
+        fit(&members)
+    }
+
+    /// The best refined candidate that chance cannot explain.
     pub fn best(&self) -> Option<Candidate> {
         let mut best: Option<Candidate> = None;
         for (f0, s) in self.candidates() {
             for pattern in [Pattern::All, Pattern::OddOnly] {
                 let c = self.refined(f0, s, pattern);
-                if best.as_ref().is_none_or(|b| better(&c, b)) {
+                if best.as_ref().is_none_or(|b| better(&c, b))
+                    && self.chance(&c) < self.params.max_chance
+                {
                     best = Some(c);
                 }
             }
         }
         best
     }
+}
+
+/// P(at least `h` successes) for independent trials with success probabilities `probs`.
+pub fn poisson_binomial_tail(probs: &[f64], h: usize) -> f64 {
+    if h == 0 {
+        return 1.0;
+    }
+    if h > probs.len() {
+        return 0.0;
+    }
+    // dist[k] = P(k successes so far), k < h; the mass at h or more collects in `tail`
+    let mut dist = vec![0.0; h];
+    dist[0] = 1.0;
+    let mut tail = 0.0;
+    for &p in probs {
+        tail += dist[h - 1] * p;
+        for k in (1..h).rev() {
+            dist[k] = dist[k] * (1.0 - p) + dist[k - 1] * p;
+        }
+        dist[0] *= 1.0 - p;
+    }
+    tail.clamp(0.0, 1.0)
 }
 
 /// Higher value wins; on a tie, every-harmonic beats odd-only and the higher fundamental wins
@@ -225,11 +372,26 @@ mod tests {
     use super::*;
 
     fn lines(freqs: &[f64]) -> Vec<Line> {
-        freqs.iter().map(|&f| Line { freq_hz: f, sigma_hz: 300.0, weight: 1.5 }).collect()
+        freqs
+            .iter()
+            .map(|&f| Line {
+                freq_hz: f,
+                sigma_hz: 300.0,
+                weight: 1.5,
+                strength_db: 20.0,
+                width_hz: 10e3,
+            })
+            .collect()
     }
 
     fn sieve<'a>(l: &'a [Line], occupied: &'a [(f64, f64)]) -> Sieve<'a> {
-        Sieve { lines: l, free: vec![true; l.len()], min_fundamental_hz: 15e3, occupied, params: SieveParams::default() }
+        Sieve {
+            lines: l,
+            free: vec![true; l.len()],
+            min_fundamental_hz: 15e3,
+            occupied,
+            params: SieveParams::default(),
+        }
     }
 
     /// The slow oracle: every fundamental on a fine grid, scored the same way.
@@ -252,7 +414,11 @@ mod tests {
         let f: Vec<f64> = (3..=20).map(|n| 65_012.0 * f64::from(n)).collect();
         let l = lines(&f);
         let c = sieve(&l, &[]).best().unwrap();
-        assert!((c.fundamental_hz - 65_012.0).abs() < 30.0, "{}", c.fundamental_hz);
+        assert!(
+            (c.fundamental_hz - 65_012.0).abs() < 30.0,
+            "{}",
+            c.fundamental_hz
+        );
         assert_eq!(c.hits.first().map(|h| h.1), Some(3));
         assert_eq!(c.misses, 0);
     }
@@ -263,7 +429,11 @@ mod tests {
         let l = lines(&f);
         let s = sieve(&l, &[]);
         let c = s.best().unwrap();
-        assert!((c.fundamental_hz / 400e3 - 1.0).abs() < 1e-4, "{}", c.fundamental_hz);
+        assert!(
+            (c.fundamental_hz / 400e3 - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
         // half the fundamental scores worse: it predicts a harmonic between every pair
         assert!(s.score(200e3, 10.0, Pattern::All).value < c.value);
         // the brute-force search agrees
@@ -287,6 +457,26 @@ mod tests {
         let s = sieve(&l, &[]);
         // each station is a run of its own: dozens of empty channels lie between them
         assert!(s.score(9e3, 1.0, Pattern::All).hits.len() < 3);
+    }
+
+    #[test]
+    fn poisson_binomial_tail_matches_the_binomial_and_brute_force() {
+        use statrs::distribution::{Binomial, DiscreteCDF};
+        // equal probabilities: the binomial law (statrs as the reference)
+        let b = Binomial::new(0.1, 30).unwrap();
+        assert!((poisson_binomial_tail(&[0.1; 30], 5) - b.sf(4)).abs() < 1e-12);
+        // unequal probabilities: enumerate all 2^4 outcomes
+        let p = [0.1, 0.5, 0.3, 0.9];
+        let mut want = 0.0;
+        for mask in 0u32..16 {
+            let prob: f64 = (0..4)
+                .map(|i| if mask >> i & 1 == 1 { p[i] } else { 1.0 - p[i] })
+                .product();
+            if mask.count_ones() >= 2 {
+                want += prob;
+            }
+        }
+        assert!((poisson_binomial_tail(&p, 2) - want).abs() < 1e-12);
     }
 
     #[test]
