@@ -147,3 +147,59 @@ fn seeds() -> std::ops::RangeInclusive<u64> {
         .unwrap_or(6);
     1..=n
 }
+
+/// The scoring itself: an oracle analysis that reports every eligible truth family exactly
+/// (f0, kind, origin, ranked by worst margin) scores 1 on every family rate; the same report
+/// at half the fundamental (a sub-multiple error) matches nothing.
+#[test]
+fn oracle_report_scores_perfectly_and_submultiples_do_not_match() {
+    use spurhound::analysis::Family;
+    let mut exact = Totals::default();
+    let mut halved = Totals::default();
+    for seed in 1..13u64 {
+        let case = random_case(seed, &options(seed, Some(1001))).unwrap();
+        let dut = case.dut_scan().unwrap();
+        let ctx = case.context(case.ambient_scans().unwrap()).unwrap();
+        let mut analysis = analyze(&dut, &ctx).unwrap();
+        let mut truth: Vec<_> = case.truth.iter().filter(|t| t.eligible()).collect();
+        // rank 1 = the DUT family that fails worst
+        let key = |t: &&spurhound::synth::random::TruthFamily| match t.origin {
+            spurhound::analysis::Origin::Dut => t.worst_margin_db.unwrap_or(f64::INFINITY),
+            _ => f64::INFINITY,
+        };
+        truth.sort_by(|a, b| key(a).total_cmp(&key(b)));
+        let families = |scale: f64| -> Vec<Family> {
+            truth
+                .iter()
+                .enumerate()
+                .map(|(i, t)| Family {
+                    id: i,
+                    fundamental_hz: t.f0_hz * scale,
+                    fundamental_sigma_hz: 0.0,
+                    harmonics: t.harmonics_visible.clone(),
+                    kind: t.kind,
+                    origin: t.origin,
+                    worst_margin_db: t.worst_margin_db,
+                    rank: i + 1,
+                    remedies: Vec::new(),
+                })
+                .collect()
+        };
+        analysis.families = families(1.0);
+        exact.add(&score_case(&case, &analysis));
+        analysis.families = families(0.5);
+        halved.add(&score_case(&case, &analysis));
+    }
+    let s = exact.summary();
+    assert!(s.eligible_families > 10 && s.top1_cases > 3, "{s:?}");
+    assert_eq!(s.family_recall, Some(1.0), "{s:?}");
+    assert_eq!(s.family_precision, Some(1.0), "{s:?}");
+    assert_eq!(s.median_f0_rel_error, Some(0.0), "{s:?}");
+    assert_eq!((s.origin_accuracy, s.kind_accuracy), (Some(1.0), Some(1.0)));
+    assert_eq!(s.top1_rate, Some(1.0), "{s:?}");
+    assert!(s.missed_targets().is_empty(), "{:?}", s.missed_targets());
+    let h = halved.summary();
+    assert_eq!(h.family_recall, Some(0.0), "{h:?}");
+    assert_eq!(h.family_precision, Some(0.0), "{h:?}");
+    assert_eq!(h.top1_rate, Some(0.0), "{h:?}");
+}
