@@ -66,7 +66,15 @@ const BIN_QUANTILE: f64 = 0.25;
 /// Quantile of the bin values across the window (hugs the floor under humps and combs).
 const WINDOW_QUANTILE: f64 = 0.3;
 /// Residual quantiles the noise law is fitted to: the lower part, where noise dominates.
-const FIT_QUANTILES: [f64; 5] = [0.05, 0.1, 0.2, 0.3, 0.4];
+const FIT_QUANTILES: [f64; 6] = [0.03, 0.06, 0.1, 0.15, 0.2, 0.25];
+/// Share of the envelope the smooth baseline is fitted to: the lowest quarter.
+const BASELINE_QUANTILE: f64 = 0.25;
+/// The local envelope may rise this far above the smooth baseline before it is taken for
+/// signal (a scan whose every bucket holds a line has no visible floor there), dB.
+const BASELINE_SLACK_DB: f64 = 3.0;
+/// Steepest floor the baseline may take, dB per decade: a receiver floor is nearly flat, and an
+/// antenna factor adds at most about 20 dB per decade across 30 MHz-1 GHz (common practice).
+const MAX_FLOOR_SLOPE_DB_PER_DECADE: f64 = 20.0;
 /// The fitted `M` is searched over [1, M_MAX]; a noise-free trace ends at the top.
 const M_MAX: f64 = 1e5;
 /// The threshold stays at least this far over the floor for traces without visible noise
@@ -159,10 +167,94 @@ fn lower_envelope(
             (lf, quantile_in_place(&mut vals, WINDOW_QUANTILE))
         })
         .collect();
+    let baseline = smooth_baseline(&smoothed);
+    let bounded: Vec<(f64, f64)> = smoothed
+        .iter()
+        .map(|&(x, y)| (x, y.min(eval_quadratic(baseline, x) + BASELINE_SLACK_DB)))
+        .collect();
     freqs
         .iter()
-        .map(|&f| interp_sorted(&smoothed, f.log10()))
+        .map(|&f| interp_sorted(&bounded, f.log10()))
         .collect()
+}
+
+/// A straight line in log10(f) under the local envelope: least squares, refitted on the quarter
+/// of the points lying lowest against the previous line, until that quarter settles. A
+/// receiver's floor tilts smoothly across a span, so where the local envelope rises far above
+/// this line it is made of signal (a comb filling every bucket of a coarse grid, a broad hump),
+/// and the floor there is the line.
+///
+/// # Source
+/// A trimmed least-squares line, kept to the lowest quarter of the residuals (the idea of a
+/// least-trimmed-squares fit, with the trim set for a lower envelope); common practice for
+/// baselines under peaks.
+fn smooth_baseline(points: &[(f64, f64)]) -> [f64; 3] {
+    let Some(&(x0, _)) = points.first() else {
+        return [0.0; 3];
+    };
+    let mut w = vec![1.0; points.len()];
+    let mut coef = [0.0; 3];
+    for _ in 0..20 {
+        let Some(c) = weighted_line(points, &w, x0) else {
+            break;
+        };
+        coef = c;
+        let mut r: Vec<f64> = points
+            .iter()
+            .map(|&(x, y)| y - eval_shifted(coef, x - x0))
+            .collect();
+        let cut = quantile_in_place(&mut r.clone(), BASELINE_QUANTILE);
+        let mut changed = false;
+        for (wi, &(x, y)) in w.iter_mut().zip(points) {
+            let want = if y - eval_shifted(coef, x - x0) <= cut {
+                1.0
+            } else {
+                0.0
+            };
+            changed |= *wi != want;
+            *wi = want;
+        }
+        r.clear();
+        if !changed {
+            break;
+        }
+    }
+    // back from powers of (x − x0) to powers of x
+    [coef[0] - coef[1] * x0, coef[1], 0.0]
+}
+
+/// Weighted least-squares line y ≈ a + b·(x − x0), as `[a, b, 0]`; a weighted mean when the
+/// frequencies are too few for a slope.
+fn weighted_line(points: &[(f64, f64)], w: &[f64], x0: f64) -> Option<[f64; 3]> {
+    let (mut sw, mut sx, mut sy) = (0.0, 0.0, 0.0);
+    for (&(x, y), &wi) in points.iter().zip(w) {
+        sw += wi;
+        sx += wi * (x - x0);
+        sy += wi * y;
+    }
+    if sw <= 0.0 {
+        return None;
+    }
+    let (mx, my) = (sx / sw, sy / sw);
+    let (mut sxx, mut sxy) = (0.0, 0.0);
+    for (&(x, y), &wi) in points.iter().zip(w) {
+        sxx += wi * (x - x0 - mx).powi(2);
+        sxy += wi * (x - x0 - mx) * (y - my);
+    }
+    let b = if sxx > 1e-300 { sxy / sxx } else { 0.0 };
+    let b = b.clamp(
+        -MAX_FLOOR_SLOPE_DB_PER_DECADE,
+        MAX_FLOOR_SLOPE_DB_PER_DECADE,
+    );
+    Some([my - b * mx, b, 0.0])
+}
+
+fn eval_shifted(c: [f64; 3], d: f64) -> f64 {
+    c[0] + c[1] * d + c[2] * d * d
+}
+
+fn eval_quadratic(c: [f64; 3], x: f64) -> f64 {
+    c[0] + c[1] * x + c[2] * x * x
 }
 
 /// Linear interpolation in a sorted `(x, y)` table, constant beyond its ends.
@@ -336,6 +428,67 @@ mod tests {
         assert!((f.floor_dbuv[0] - 10.0).abs() < 0.5, "{}", f.floor_dbuv[0]);
         let over = f.threshold_dbuv[0] - f.floor_dbuv[0];
         assert!((MIN_THRESHOLD_DB..3.0).contains(&over), "{over}");
+    }
+
+    #[test]
+    fn a_comb_in_every_bucket_does_not_become_the_floor() {
+        // log-spaced 150 kHz-30 MHz; the lowest 40 % of the span in log f: a line in every
+        // point at 50 dB (a dense comb on a coarse grid); the rest: noise
+        let n = 3_000;
+        let mut t = noise_trace(n, 2, 0.0, 9);
+        for v in t.iter_mut().take(n * 2 / 5) {
+            *v = 50.0 + (*v - 2.0) * 0.1;
+        }
+        let f: Vec<f64> = (0..n)
+            .map(|i| 150e3 * 200f64.powf(i as f64 / (n - 1) as f64))
+            .collect();
+        let s = Scan::new(
+            f,
+            t,
+            ScanMeta {
+                rbw_hz: Some(9e3),
+                ..ScanMeta::default()
+            },
+        )
+        .unwrap();
+        let fl = estimate_floor(&s, &FloorParams::default());
+        let want = max_rayleigh_quantile_db(0.5, 2.0);
+        assert!(
+            fl.floor_dbuv[600] < want + 10.0,
+            "floor under the comb {}",
+            fl.floor_dbuv[600]
+        );
+        // with 40 % of the points taken by the comb the noise law is fitted on fewer points
+        assert!(
+            (fl.floor_dbuv[2_800] - want).abs() < 2.5,
+            "{}",
+            fl.floor_dbuv[2_800]
+        );
+    }
+
+    #[test]
+    fn asymmetric_baseline_fits_a_line_under_the_points() {
+        // source: derived, points on y = 1 + 2x with a few far above: the fit stays on the line
+        // because it is refitted to the lowest quarter
+        let mut p: Vec<(f64, f64)> = (0..50)
+            .map(|i| {
+                let x = 5.0 + f64::from(i) * 0.04;
+                (x, 1.0 + 2.0 * x)
+            })
+            .collect();
+        for k in [3, 17, 30] {
+            p[k].1 += 40.0;
+        }
+        let c = smooth_baseline(&p);
+        for &(x, y) in p.iter().filter(|q| q.1 < 200.0) {
+            let _ = y;
+            let truth = 1.0 + 2.0 * x;
+            assert!(
+                (eval_quadratic(c, x) - truth).abs() < 0.5,
+                "{x}: {} vs {truth}",
+                eval_quadratic(c, x)
+            );
+        }
     }
 
     #[test]

@@ -182,6 +182,7 @@ fn oracle_report_scores_perfectly_and_submultiples_do_not_match() {
                     worst_margin_db: t.worst_margin_db,
                     rank: i + 1,
                     remedies: Vec::new(),
+                    ..Family::default()
                 })
                 .collect()
         };

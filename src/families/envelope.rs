@@ -57,8 +57,8 @@ pub fn linear_fit(points: &[(f64, f64)]) -> Option<(f64, f64)> {
 ///
 /// Dither: a line swept over a total spread Δ shows, at harmonic n, a width of about
 /// n·Δ + (a fraction of) the RBW, so the excess width grows as n·Δ (common practice; the
-/// spread-spectrum rule in METHODS §9 uses Δf_n = n·Δf). The growth counts only when the
-/// widest harmonic is at least half a line width wider than a single line.
+/// spread-spectrum rule in METHODS §9 uses Δf_n = n·Δf). The growth counts only when it adds
+/// at least a line width by the highest harmonic seen.
 pub fn describe(harmonics: &[Harmonic], f0_hz: f64, line_width_hz: f64) -> Envelope {
     let levels: Vec<(f64, f64)> = harmonics
         .iter()
@@ -80,8 +80,9 @@ pub fn describe(harmonics: &[Harmonic], f0_hz: f64, line_width_hz: f64) -> Envel
         .map(|h| (f64::from(h.n), (h.width_hz - line_width_hz).max(0.0)))
         .collect();
     let growth = linear_fit(&excess).map(|(b, _)| b);
-    let widest = excess.iter().map(|p| p.1).fold(0.0, f64::max);
-    let dithered = growth.is_some_and(|g| g > 0.0) && widest > 0.5 * line_width_hz;
+    let top_n = harmonics.iter().map(|h| f64::from(h.n)).fold(0.0, f64::max);
+    // the fitted growth must add at least a line width by the highest harmonic seen
+    let dithered = growth.is_some_and(|g| g > 0.0 && g * top_n >= line_width_hz);
     let spread_pct = dithered.then(|| growth.unwrap_or(0.0) / f0_hz * 100.0);
     Envelope {
         slope_db_per_decade,

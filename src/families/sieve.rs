@@ -315,20 +315,52 @@ impl Sieve<'_> {
         fit(&members)
     }
 
-    /// The best refined candidate that chance cannot explain.
+    /// The best refined candidate that chance cannot explain. A candidate whose far hits
+    /// drown it in lines that fall near its harmonics by chance is cut back to the run of its
+    /// lowest harmonics that chance explains least.
     pub fn best(&self) -> Option<Candidate> {
         let mut best: Option<Candidate> = None;
         for (f0, s) in self.candidates() {
             for pattern in [Pattern::All, Pattern::OddOnly] {
                 let c = self.refined(f0, s, pattern);
-                if best.as_ref().is_none_or(|b| better(&c, b))
-                    && self.chance(&c) < self.params.max_chance
-                {
+                if !best.as_ref().is_none_or(|b| better(&c, b)) {
+                    continue;
+                }
+                if self.chance(&c) < self.params.max_chance {
                     best = Some(c);
+                } else if let Some(cut) = self.least_chance_prefix(&c) {
+                    if best.as_ref().is_none_or(|b| better(&cut, b)) {
+                        best = Some(cut);
+                    }
                 }
             }
         }
         best
+    }
+
+    /// The prefix of the hits (at least three) with the smallest chance, when that chance is
+    /// below the limit; `None` otherwise or for long runs (a long run that fails is no family).
+    fn least_chance_prefix(&self, c: &Candidate) -> Option<Candidate> {
+        const LONGEST: usize = 40;
+        if c.hits.len() > LONGEST || c.hits.len() < 4 {
+            return None;
+        }
+        let mut best: Option<(f64, Candidate)> = None;
+        for k in 3..c.hits.len() {
+            let (hits, misses) = self.alive_run(c.fundamental_hz, c.pattern, &c.hits[..k]);
+            let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
+            let cut = Candidate {
+                hits,
+                misses,
+                value: gain - self.params.miss_penalty * misses as f64,
+                ..c.clone()
+            };
+            let p = self.chance(&cut);
+            if best.as_ref().is_none_or(|b| p < b.0) {
+                best = Some((p, cut));
+            }
+        }
+        best.filter(|b| b.0 < self.params.max_chance).map(|b| b.1)
     }
 }
 

@@ -21,9 +21,9 @@ impl Renderer for TextReport {
         limits_section(a, &mut out);
         over_section(a, &mut out);
         ambient_section(a, &mut out);
-        if a.peaks.is_empty() && a.families.is_empty() {
-            out.push_str("Culprits\n  peaks and harmonic families are not attributed yet in this version.\n\n");
-        }
+        culprits_section(a, &mut out);
+        peaks_section(a, &mut out);
+        humps_section(a, &mut out);
         warnings_section(a, &mut out);
         Ok(out)
     }
@@ -178,6 +178,165 @@ fn ambient_section(a: &Analysis, out: &mut String) {
         wrap_into(out, &line, "  ", "    ");
     }
     out.push('\n');
+}
+
+fn culprits_section(a: &Analysis, out: &mut String) {
+    if a.families.is_empty() {
+        out.push_str("Culprits\n  no harmonic family found.\n\n");
+        return;
+    }
+    out.push_str("Culprits (rank 1 = fix first)\n");
+    let _ = writeln!(
+        out,
+        "  {:>2} {:<9} {:<27} {:>11} {:>8} {:<7}",
+        "#", "kind", "fundamental", "harmonics", "worst", "origin"
+    );
+    let mut fams: Vec<_> = a.families.iter().collect();
+    fams.sort_by_key(|f| f.rank);
+    for f in fams {
+        let fundamental = format!(
+            "{} ± {}",
+            fmt_hz(f.fundamental_hz),
+            fmt_sigma(f.fundamental_sigma_hz)
+        );
+        let (lo, hi) = (
+            f.harmonics.first().copied().unwrap_or(0),
+            f.harmonics.last().copied().unwrap_or(0),
+        );
+        let harmonics = format!("{} ({lo}-{hi})", f.harmonics.len());
+        let worst = f
+            .worst_margin_db
+            .map_or("-".to_string(), |m| format!("{m:+.1} dB"));
+        let _ = writeln!(
+            out,
+            "  {:>2} {:<9} {:<27} {:>11} {:>8} {:<7}",
+            f.rank,
+            kind_name(f.kind),
+            clip(&fundamental, 27),
+            harmonics,
+            worst,
+            origin_name(f.origin)
+        );
+        let mut notes = Vec::new();
+        if let Some(spread) = f.envelope.as_ref().and_then(|e| e.spread_pct) {
+            notes.push(format!("dithered, about {spread:.1} % peak to peak"));
+        }
+        if f.odd_only {
+            notes.push("odd harmonics only".to_string());
+        }
+        if f.points_over > 0 {
+            notes.push(format!("{} harmonic(s) over a limit", f.points_over));
+        }
+        if !notes.is_empty() {
+            wrap_into(out, &notes.join("; "), "     ", "     ");
+        }
+        if let Some(r) = f.remedies.first() {
+            wrap_into(out, r, "     fix: ", "          ");
+        }
+    }
+    out.push('\n');
+}
+
+/// Most peaks listed; the JSON and CSV have them all.
+const MAX_PEAKS: usize = 15;
+
+fn peaks_section(a: &Analysis, out: &mut String) {
+    if a.peaks.is_empty() {
+        return;
+    }
+    let mut peaks: Vec<_> = a.peaks.iter().collect();
+    peaks.sort_by(|x, y| {
+        let m = |p: &crate::analysis::Peak| p.margin_db.unwrap_or(f64::INFINITY);
+        m(x).total_cmp(&m(y))
+            .then(y.level_dbuv.total_cmp(&x.level_dbuv))
+    });
+    let shown = peaks.len().min(MAX_PEAKS);
+    let _ = writeln!(
+        out,
+        "Peaks ({shown} of {}, smallest margin first)",
+        peaks.len()
+    );
+    let _ = writeln!(
+        out,
+        "  {:>14} {:>7} {:>8} {:>9} {:<10} {:<7} {:>8}",
+        "frequency", "level", "margin", "width", "bandwidth", "origin", "family"
+    );
+    for p in peaks.iter().take(shown) {
+        let margin = p.margin_db.map_or("-".to_string(), |m| format!("{m:+.1}"));
+        let family = match (p.family, p.harmonic) {
+            (Some(f), Some(n)) => format!("{f} n={n}"),
+            _ => "-".to_string(),
+        };
+        let bw = match p.bandwidth {
+            crate::analysis::Bandwidth::Narrowband => "narrow",
+            crate::analysis::Bandwidth::Broadband => "broad",
+        };
+        let _ = writeln!(
+            out,
+            "  {:>14} {:>7.1} {:>8} {:>9} {:<10} {:<7} {:>8}",
+            fmt_hz(p.freq_hz),
+            p.level_dbuv,
+            margin,
+            fmt_hz(p.width_hz),
+            bw,
+            origin_name(p.origin),
+            family
+        );
+    }
+    out.push('\n');
+}
+
+fn humps_section(a: &Analysis, out: &mut String) {
+    if a.humps.is_empty() {
+        return;
+    }
+    let _ = writeln!(out, "Broadband regions ({})", a.humps.len());
+    let _ = writeln!(
+        out,
+        "  {:>14} {:>14} {:>14} {:>7} {:>11}",
+        "from", "to", "top at", "level", "over floor"
+    );
+    for h in a.humps.iter().take(MAX_PEAKS) {
+        let _ = writeln!(
+            out,
+            "  {:>14} {:>14} {:>14} {:>7.1} {:>8.1} dB",
+            fmt_hz(h.start_hz),
+            fmt_hz(h.stop_hz),
+            fmt_hz(h.freq_hz),
+            h.level_dbuv,
+            h.over_floor_db
+        );
+    }
+    out.push('\n');
+}
+
+fn fmt_sigma(sigma_hz: f64) -> String {
+    if sigma_hz >= 1e3 {
+        format!("{:.2} kHz", sigma_hz / 1e3)
+    } else {
+        format!("{sigma_hz:.1} Hz")
+    }
+}
+
+fn kind_name(k: crate::analysis::Kind) -> &'static str {
+    use crate::analysis::Kind::*;
+    match k {
+        Switching => "switching",
+        Clock => "clock",
+        Lighting => "lighting",
+        Broadcast => "broadcast",
+        Other => "other",
+    }
+}
+
+fn origin_name(o: crate::analysis::Origin) -> &'static str {
+    use crate::analysis::Origin::*;
+    match o {
+        Dut => "dut",
+        Ambient => "ambient",
+        Mixed => "mixed",
+        Unknown => "unknown",
+    }
 }
 
 fn warnings_section(a: &Analysis, out: &mut String) {

@@ -1,0 +1,98 @@
+//! Inspect one random accuracy case: its truth, what the analysis reported, and why lines were
+//! missed.
+//!
+//!     cargo run --release --example inspect_case -- SEED
+//!
+//! Look at: missed truth lines with the trace level and detection threshold at their frequency.
+
+use spurhound::synth::random::{CaseOptions, random_case};
+
+fn main() -> Result<(), Box<dyn std::error::Error>> {
+    let seed: u64 = std::env::args()
+        .nth(1)
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(1);
+    let case = random_case(seed, &CaseOptions::default())?;
+    let scan = case.dut_scan()?;
+    let ctx = case.context(case.ambient_scans()?)?;
+    let a = spurhound::analyze(&scan, &ctx)?;
+    let floor = spurhound::floor::estimate_floor(&a.scan, &Default::default());
+    println!(
+        "case {seed} {:?} points {} rbw {:?} floor M {:.2} spread {:.1}",
+        case.scenario,
+        scan.len(),
+        scan.meta.rbw_hz,
+        floor.samples_per_point,
+        floor.spread_db
+    );
+    for t in &case.truth {
+        println!(
+            "TRUTH {:<40} f0 {:>12.1} {:?}/{:?} eligible {} vis {} worst {:?}",
+            t.label,
+            t.f0_hz,
+            t.kind,
+            t.origin,
+            t.eligible(),
+            t.harmonics_visible.len(),
+            t.worst_margin_db.map(|m| (m * 10.0).round() / 10.0)
+        );
+        if !t.eligible() {
+            continue;
+        }
+        let mut shown = 0;
+        for l in &t.lines {
+            if l.level_dbuv < l.floor_dbuv + 10.0 {
+                continue;
+            }
+            let found = a.peaks.iter().any(|p| {
+                (p.freq_hz - l.freq_hz).abs() < 6e3f64.max(scan.meta.rbw_hz.unwrap_or(9e3) / 2.0)
+            });
+            if !found && shown < 6 {
+                shown += 1;
+                let i = a
+                    .scan
+                    .freq_hz
+                    .iter()
+                    .position(|&f| f >= l.freq_hz)
+                    .unwrap_or(0);
+                let near = a.peaks.iter().min_by(|x, y| {
+                    (x.freq_hz - l.freq_hz)
+                        .abs()
+                        .total_cmp(&(y.freq_hz - l.freq_hz).abs())
+                });
+                println!(
+                    "   missed n={} {:.0} decl {:.1} floor {:.1} | trace {:.1} thr {:.1} | nearest peak {:?}",
+                    l.harmonic,
+                    l.freq_hz,
+                    l.level_dbuv,
+                    l.floor_dbuv,
+                    a.scan.level_dbuv[i],
+                    floor.threshold_dbuv[i],
+                    near.map(|p| (
+                        p.freq_hz.round(),
+                        (p.level_dbuv * 10.0).round() / 10.0,
+                        p.family
+                    ))
+                );
+            }
+        }
+    }
+    for f in &a.families {
+        println!(
+            "REPORT #{} rank {} {:?} {:?} f0 {:.1} ± {:.1} n {} [{}..{}] miss {} worst {:?}",
+            f.id,
+            f.rank,
+            f.kind,
+            f.origin,
+            f.fundamental_hz,
+            f.fundamental_sigma_hz,
+            f.harmonics.len(),
+            f.harmonics.first().unwrap_or(&0),
+            f.harmonics.last().unwrap_or(&0),
+            f.misses,
+            f.worst_margin_db.map(|m| (m * 10.0).round() / 10.0)
+        );
+    }
+    println!("peaks {} humps {}", a.peaks.len(), a.humps.len());
+    Ok(())
+}
