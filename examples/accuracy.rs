@@ -166,7 +166,10 @@ fn main() {
             "\nnote: no case reported any family; the attribution stages are not in analyze yet, so the family rates are 0 by construction."
         );
     }
-    let shown = 30;
+    let shown = std::env::var("SPURHOUND_NOTES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(30);
     if !notes.is_empty() {
         println!("\n{} notes (first {shown}):", notes.len());
         for n in notes.iter().take(shown) {

@@ -13,7 +13,7 @@ fn main() {
     let humps = spurhound::bandwidth::find_humps(&scan, &floor, &peaks, &bw);
     let (lines, mut free, _w) = spurhound::families::offered_lines(&scan, &peaks, &humps);
     let fams =
-        spurhound::families::find_families(&scan, &floor, &peaks, &humps, &Default::default());
+        spurhound::families::find_families(&scan, &floor, &peaks, &humps, &[], &Default::default());
     for f in &fams {
         for m in &f.members {
             free[m.0] = false;

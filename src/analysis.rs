@@ -235,7 +235,6 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
     let found = find_peaks(&dut, &floor, &PeakParams::default());
     let bandwidth = bandwidth::classify(&dut, &found);
     let humps = bandwidth::find_humps(&dut, &floor, &found, &bandwidth);
-    let fits = families::find_families(&dut, &floor, &found, &humps, &FamilyParams::default());
     let ambient_scans: Vec<AmbientScan> =
         ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect();
     let evidence: Vec<PeakAmbient> = found
@@ -246,6 +245,15 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
             ambient::peak_origin(p, &ambient_scans, half)
         })
         .collect();
+    let in_ambient: Vec<bool> = evidence.iter().map(|e| e.ambient_dbuv.is_some()).collect();
+    let fits = families::find_families(
+        &dut,
+        &floor,
+        &found,
+        &humps,
+        &in_ambient,
+        &FamilyParams::default(),
+    );
     let mut peaks = build_peaks(&found, &bandwidth, &evidence, &limits);
     let families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
     let verdict = verdict(&limits);
@@ -331,12 +339,12 @@ fn build_families(
         let id = k + 1;
         let member_origins: Vec<Origin> =
             fit.members.iter().map(|&(i, _)| peaks[i].origin).collect();
-        let origin = if no_ambient {
-            if fit.raster.is_some() {
-                Origin::Ambient
-            } else {
-                Origin::Dut
-            }
+        // a broadcast set is the lab's by allocation and by its members in the ambient scans;
+        // a station missing from the ambient scans faded or came on later
+        let origin = if fit.raster.is_some() {
+            Origin::Ambient
+        } else if no_ambient {
+            Origin::Dut
         } else {
             ambient::family_origin(&member_origins)
         };

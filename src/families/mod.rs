@@ -60,10 +60,18 @@ pub struct FamilyFit {
 /// The standard uncertainty of a peak's frequency: a share of the display step and of the line
 /// width, plus a quarter of any width beyond a single line (the top of a dithered line can sit
 /// anywhere on its plateau).
+///
+/// On a grid coarser than the RBW the bucket maximum catches a line anywhere in its bucket, so
+/// the line lies uniformly within ± step/2 of the point: σ = step/√12. On a fine grid the
+/// parabolic top does better (a tenth of a step or so); between the two the share is
+/// interpolated.
 fn peak_sigma_hz(scan: &Scan, peaks: &[FoundPeak], p: &FoundPeak) -> f64 {
     let line = line_width_hz(scan, peaks, p.index);
     let step = local_step(scan, p.index);
-    let base = (0.15 * step).max(0.02 * line);
+    let rbw = (line - step).max(step * 1e-3);
+    let coarse = ((step / rbw - 0.5) / 1.5).clamp(0.0, 1.0);
+    let share = 0.15 + coarse * (1.0 / 12f64.sqrt() - 0.15);
+    let base = (share * step).max(0.02 * line);
     base + (p.width_hz - line).max(0.0) / 4.0
 }
 
@@ -135,6 +143,7 @@ pub fn find_families(
     floor: &Floor,
     peaks: &[FoundPeak],
     humps: &[Hump],
+    in_ambient: &[bool],
     params: &FamilyParams,
 ) -> Vec<FamilyFit> {
     let (lines, free, widths) = offered_lines(scan, peaks, humps);
@@ -164,7 +173,7 @@ pub fn find_families(
         for &(i, _) in &c.hits {
             sieve.free[i] = false;
         }
-        if !absorb(&mut found, &c, &lines) {
+        if !absorb(&mut found, &c, &lines) && !near_duplicate(&found, &c) {
             found.push(c);
         }
     }
@@ -184,21 +193,37 @@ pub fn find_families(
             )
         })
         .collect();
-    if let Some(r) = broadcast_raster(peaks, &lines, &sieve.free) {
-        let (f0, members) = r;
+    let narrow: Vec<bool> = peaks
+        .iter()
+        .map(|p| p.width_hz <= 1.6 * line_width_hz(scan, peaks, p.index))
+        .collect();
+    for (service, members) in broadcast(peaks, &lines, &sieve.free, &narrow, in_ambient) {
         out.push(fit_of(
             scan,
             peaks,
             &widths,
-            f0.step_hz,
+            service.step_hz,
             0.0,
             Pattern::All,
             members,
             0,
-            Some(f0.name),
+            Some(service.name),
         ));
     }
     out
+}
+
+/// A fundamental within this share of an earlier family's is a fragment of that family: the lines of a dithered source, each
+/// plateau split into several tops, give several near-equal fundamentals.
+const DUPLICATE_SHARE: f64 = 0.03;
+
+/// Whether `c` is a fragment of an earlier family (see [`DUPLICATE_SHARE`]); its lines stay
+/// claimed, so they do not come back as another fragment.
+fn near_duplicate(found: &[Candidate], c: &Candidate) -> bool {
+    found.iter().any(|f| {
+        let ratio = c.fundamental_hz / f.fundamental_hz;
+        (ratio - 1.0).abs() < DUPLICATE_SHARE
+    })
 }
 
 /// Share of a new candidate's lines that must sit on an earlier family's harmonics for them to
@@ -245,19 +270,32 @@ fn drop_intruders(hits: &mut Vec<(usize, u32)>, widths: &[f64]) {
     hits.retain(|&(i, _)| widths[i] <= 4.0 * median);
 }
 
-fn broadcast_raster(
+fn broadcast(
     peaks: &[FoundPeak],
     lines: &[Line],
     free: &[bool],
-) -> Option<(raster::Raster, Vec<(usize, u32)>)> {
+    narrow: &[bool],
+    in_ambient: &[bool],
+) -> Vec<(raster::Service, Vec<(usize, u32)>)> {
     let offered: Vec<usize> = (0..peaks.len()).filter(|&i| free[i]).collect();
-    let pairs: Vec<(f64, f64)> = offered
+    let o: Vec<raster::Offered> = offered
         .iter()
-        .map(|&i| (lines[i].freq_hz, lines[i].sigma_hz))
+        .map(|&i| raster::Offered {
+            freq_hz: lines[i].freq_hz,
+            sigma_hz: lines[i].sigma_hz,
+            narrow: narrow.get(i).copied().unwrap_or(true),
+            in_ambient: in_ambient.get(i).copied().unwrap_or(false),
+        })
         .collect();
-    let m = raster::match_raster(&pairs)?;
-    let members = m.members.iter().map(|&(k, n)| (offered[k], n)).collect();
-    Some((m.raster, members))
+    raster::broadcast_sets(&o)
+        .into_iter()
+        .map(|m| {
+            (
+                m.service,
+                m.members.iter().map(|&(k, n)| (offered[k], n)).collect(),
+            )
+        })
+        .collect()
 }
 
 #[allow(clippy::too_many_arguments)]

@@ -275,10 +275,7 @@ impl Sieve<'_> {
         };
         let top = c.hits.last().map_or(lowest, |h| h.1);
         let mut reach = lowest.saturating_mul(2).max(lowest + 2);
-        loop {
-            let Some(f) = self.refit(&c, reach) else {
-                break;
-            };
+        while let Some(f) = self.refit(&c, reach) {
             let mut next = self.score(f.fundamental_hz, f.stated_sigma_hz, c.pattern);
             next.reported_sigma_hz = f.sigma_hz;
             c = next;
