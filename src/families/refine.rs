@@ -40,7 +40,11 @@ pub struct Fit {
 
 /// As [`fit_fundamental`], with both uncertainties.
 pub fn fit(members: &[Member]) -> Option<Fit> {
-    if members.is_empty() || members.iter().any(|m| m.sigma_hz.is_nan() || m.sigma_hz <= 0.0) {
+    if members.is_empty()
+        || members
+            .iter()
+            .any(|m| m.sigma_hz.is_nan() || m.sigma_hz <= 0.0)
+    {
         return None;
     }
     let w = |m: &Member| 1.0 / (m.sigma_hz * m.sigma_hz);

@@ -65,6 +65,8 @@ pub struct SieveParams {
     /// A family must be less likely than this to arise from lines at random (see
     /// [`Sieve::chance`]); a few thousand candidates are tried, so it is small.
     pub max_chance: f64,
+    /// Candidates refined after the first, rough scoring.
+    pub refined: usize,
 }
 
 impl Default for SieveParams {
@@ -76,6 +78,7 @@ impl Default for SieveParams {
             tolerance_sigmas: 3.0,
             max_gap: 3,
             max_chance: 1e-5,
+            refined: 32,
         }
     }
 }
@@ -316,9 +319,18 @@ impl Sieve<'_> {
     /// drown it in lines that fall near its harmonics by chance is cut back to the run of its
     /// lowest harmonics that chance explains least.
     pub fn best(&self) -> Option<Candidate> {
-        let mut best: Option<Candidate> = None;
+        // a first, unrefined score of every candidate; only the most promising are refined
+        let mut rough: Vec<(f64, f64, Pattern, f64)> = Vec::new();
         for (f0, s) in self.candidates() {
             for pattern in [Pattern::All, Pattern::OddOnly] {
+                rough.push((f0, s, pattern, self.score(f0, s, pattern).value));
+            }
+        }
+        rough.sort_by(|a, b| b.3.total_cmp(&a.3));
+        rough.truncate(self.params.refined);
+        let mut best: Option<Candidate> = None;
+        for (f0, s, pattern, _) in rough {
+            {
                 let c = self.refined(f0, s, pattern);
                 if !best.as_ref().is_none_or(|b| better(&c, b)) {
                     continue;

@@ -6,6 +6,7 @@
 //! `;` or tab, CRLF line ends, a UTF-8 byte-order mark and preamble text that is not UTF-8.
 
 use super::ScanError;
+use std::borrow::Cow;
 
 /// The delimiter between cells.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -26,6 +27,17 @@ impl Delimiter {
             Delimiter::Tab => "tab",
             Delimiter::Whitespace => "blanks",
         }
+    }
+
+    /// Cell `idx` of a line, cleaned; no allocation (the hot path of long scans).
+    fn nth_cell(self, line: &str, idx: usize) -> Option<&str> {
+        let cell = match self {
+            Delimiter::Comma => line.split(',').nth(idx),
+            Delimiter::Semicolon => line.split(';').nth(idx),
+            Delimiter::Tab => line.split('\t').nth(idx),
+            Delimiter::Whitespace => line.split_whitespace().nth(idx),
+        };
+        cell.map(clean_cell)
     }
 
     fn split(self, line: &str) -> Vec<&str> {
@@ -86,7 +98,6 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
     }
     let delimiter = detect_delimiter(&lines);
     let decimal_comma = delimiter != Delimiter::Comma && data_uses_decimal_comma(&lines, delimiter);
-    let parse = |cell: &str| parse_number(cell, decimal_comma);
     let need = columns.0.max(columns.1) + 1;
 
     // The final run: walk back over blank, comment and data-like lines.
@@ -96,8 +107,7 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
         if t.is_empty() || t.starts_with('#') {
             continue;
         }
-        let cells = delimiter.split(t);
-        if cells.get(columns.0).is_some_and(|c| parse(c).is_some()) {
+        if delimiter.nth_cell(t, columns.0).is_some_and(looks_numeric) {
             start = i;
         } else {
             break;
@@ -119,17 +129,19 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
         if t.is_empty() || t.starts_with('#') {
             continue;
         }
-        let cells = delimiter.split(t);
-        if cells.len() < need {
+        let (Some(ca), Some(cb)) = (
+            delimiter.nth_cell(t, columns.0),
+            delimiter.nth_cell(t, columns.1),
+        ) else {
             return Err(ScanError::MissingColumn {
                 file: file.to_string(),
                 line: i + 1,
                 expected: need,
-                found: cells.len(),
+                found: delimiter.split(t).len(),
             });
-        }
-        let a = number_at(&cells, columns.0, i + 1, decimal_comma, file)?;
-        let b = number_at(&cells, columns.1, i + 1, decimal_comma, file)?;
+        };
+        let a = number_in(ca, columns.0, i + 1, decimal_comma, file)?;
+        let b = number_in(cb, columns.1, i + 1, decimal_comma, file)?;
         rows.push(Row { line: i + 1, a, b });
     }
     if rows.is_empty() {
@@ -151,7 +163,7 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
 /// A text line between numeric rows is a bad cell in the data, not a preamble: rows of numbers,
 /// then one line that is not, then the final run.
 fn check_interruption(
-    lines: &[String],
+    lines: &[Cow<'_, str>],
     preamble_end: usize,
     delimiter: Delimiter,
     columns: (usize, usize),
@@ -194,14 +206,13 @@ fn check_interruption(
     Ok(())
 }
 
-fn number_at(
-    cells: &[&str],
+fn number_in(
+    text: &str,
     col: usize,
     line: usize,
     decimal_comma: bool,
     file: &str,
 ) -> Result<f64, ScanError> {
-    let text = cells.get(col).copied().unwrap_or("");
     match parse_number(text, decimal_comma) {
         Some(v) if v.is_finite() => Ok(v),
         Some(_) => Err(ScanError::NotFinite {
@@ -218,21 +229,32 @@ fn number_at(
     }
 }
 
-/// Lines without their ends; the byte-order mark removed; bytes that are not UTF-8 replaced.
-fn split_lines(bytes: &[u8]) -> Vec<String> {
+/// Lines without their ends; the byte-order mark removed; bytes that are not UTF-8 replaced
+/// (borrowed from the buffer when it is valid UTF-8, the usual case).
+fn split_lines(bytes: &[u8]) -> Vec<Cow<'_, str>> {
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
-    bytes
-        .split(|&b| b == b'\n')
-        .map(|l| {
-            let l = l.strip_suffix(b"\r").unwrap_or(l);
-            String::from_utf8_lossy(l).into_owned()
-        })
-        .collect()
+    let strip = |l: &[u8]| -> usize {
+        if l.ends_with(b"\r") {
+            l.len() - 1
+        } else {
+            l.len()
+        }
+    };
+    match std::str::from_utf8(bytes) {
+        Ok(text) => text
+            .split('\n')
+            .map(|l| Cow::Borrowed(l.strip_suffix('\r').unwrap_or(l)))
+            .collect(),
+        Err(_) => bytes
+            .split(|&b| b == b'\n')
+            .map(|l| String::from_utf8_lossy(&l[..strip(l)]))
+            .collect(),
+    }
 }
 
 /// The delimiter most of the last content lines share; `;` and tab before `,` (a `;` file may
 /// carry decimal commas), blanks when none is shared.
-fn detect_delimiter(lines: &[String]) -> Delimiter {
+fn detect_delimiter(lines: &[Cow<'_, str>]) -> Delimiter {
     let tail: Vec<&str> = lines
         .iter()
         .rev()
@@ -252,7 +274,7 @@ fn detect_delimiter(lines: &[String]) -> Delimiter {
     }
 }
 
-fn data_uses_decimal_comma(lines: &[String], delimiter: Delimiter) -> bool {
+fn data_uses_decimal_comma(lines: &[Cow<'_, str>], delimiter: Delimiter) -> bool {
     lines
         .iter()
         .rev()
@@ -265,6 +287,19 @@ fn data_uses_decimal_comma(lines: &[String], delimiter: Delimiter) -> bool {
                 .iter()
                 .any(|c| c.contains(',') && !c.contains('.'))
         })
+}
+
+/// Whether a cell starts like a number (or is NaN or infinity, refused later): the cheap test
+/// that finds the final run of data rows; the rows themselves are parsed once, afterwards.
+fn looks_numeric(cell: &str) -> bool {
+    match cell.as_bytes().first() {
+        Some(b'0'..=b'9' | b'+' | b'-' | b'.') => true,
+        Some(_) => matches!(
+            cell.to_ascii_lowercase().as_str(),
+            "nan" | "inf" | "infinity"
+        ),
+        None => false,
+    }
 }
 
 /// A number from a cell; with a decimal comma `42,1` reads 42.1. `None` when not a number.
@@ -306,7 +341,7 @@ type Preamble = (
 
 /// Sorts the preamble into a header (the last text line, when it has as many cells as a data
 /// row would), settings and skipped lines.
-fn read_preamble(lines: &[String], delimiter: Delimiter) -> Preamble {
+fn read_preamble(lines: &[Cow<'_, str>], delimiter: Delimiter) -> Preamble {
     let mut settings = Vec::new();
     let mut skipped = Vec::new();
     let last_content = lines.iter().rposition(|l| {
