@@ -34,7 +34,7 @@ fn main() {
             );
         }
     }
-    let c0 = s.score(1.15e6, 2000.0, Pattern::All);
+    let c0 = s.score(4e6, 2000.0, Pattern::OddOnly);
     println!(
         "initial hits {:?}",
         c0.hits
@@ -42,7 +42,7 @@ fn main() {
             .map(|h| (h.1, lines[h.0].freq_hz as i64, lines[h.0].sigma_hz as i64))
             .collect::<Vec<_>>()
     );
-    let c = s.refined(1.15e6, 2000.0, Pattern::All);
+    let c = s.refined(4e6, 2000.0, Pattern::OddOnly);
     for k in 3..c.hits.len() {
         let mut d = c.clone();
         d.hits.truncate(k);

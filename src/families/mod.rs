@@ -321,7 +321,12 @@ fn fit_of(
     let line = members
         .first()
         .map_or(0.0, |&(i, _)| line_width_hz(scan, peaks, peaks[i].index));
-    let envelope = envelope::describe(&harmonics, f0, line);
+    let mut envelope = envelope::describe(&harmonics, f0, line);
+    if raster.is_some() {
+        // carriers on a raster are separate stations: their widths say nothing about dither
+        envelope.width_growth_hz = None;
+        envelope.spread_pct = None;
+    }
     FamilyFit {
         fundamental_hz: f0,
         sigma_hz: sigma,

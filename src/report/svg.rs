@@ -18,6 +18,18 @@ const LIMITS: [RGBColor; 3] = [
     RGBColor(120, 40, 150),
 ];
 const WORST: RGBColor = RGBColor(196, 40, 28);
+/// One colour per family, by rank.
+const FAMILIES: [RGBColor; 8] = [
+    RGBColor(214, 39, 40),
+    RGBColor(31, 119, 180),
+    RGBColor(44, 160, 44),
+    RGBColor(148, 103, 189),
+    RGBColor(255, 127, 14),
+    RGBColor(23, 190, 207),
+    RGBColor(140, 86, 75),
+    RGBColor(188, 189, 34),
+];
+const HUMP: RGBColor = RGBColor(255, 200, 120);
 
 /// The plot as SVG text.
 ///
@@ -69,6 +81,14 @@ fn draw(a: &Analysis, buf: &mut String) -> Result<(), String> {
         .map_err(|e| err(&e))?
         .label("DUT")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], TRACE));
+    for h in &a.humps {
+        chart
+            .draw_series(std::iter::once(Rectangle::new(
+                [(h.start_hz.max(x0), y0), (h.stop_hz.min(x1), y1)],
+                HUMP.mix(0.35).filled(),
+            )))
+            .map_err(|e| err(&e))?;
+    }
     for amb in &a.ambient {
         chart
             .draw_series(LineSeries::new(
@@ -91,6 +111,32 @@ fn draw(a: &Analysis, buf: &mut String) -> Result<(), String> {
             .legend(move |(x, y)| {
                 PathElement::new(vec![(x, y), (x + 18, y)], colour.stroke_width(2))
             });
+    }
+    let mut families: Vec<_> = a.families.iter().collect();
+    families.sort_by_key(|f| f.rank);
+    for (k, fam) in families.iter().enumerate() {
+        let colour = FAMILIES[k % FAMILIES.len()];
+        let marks: Vec<(f64, f64)> = a
+            .peaks
+            .iter()
+            .filter(|p| p.family == Some(fam.id))
+            .map(|p| (p.freq_hz, p.level_dbuv))
+            .collect();
+        let label = format!(
+            "#{} {} {}",
+            fam.rank,
+            crate::report::text::kind_name(fam.kind),
+            fmt_hz(fam.fundamental_hz)
+        );
+        chart
+            .draw_series(
+                marks
+                    .into_iter()
+                    .map(move |m| TriangleMarker::new(m, 4, colour.filled())),
+            )
+            .map_err(|e| err(&e))?
+            .label(label)
+            .legend(move |(x, y)| TriangleMarker::new((x + 9, y), 4, colour.filled()));
     }
     if let (Some(f), Some(m)) = (a.verdict.worst_freq_hz, a.verdict.worst_margin_db) {
         let level = level_at(&a.scan, f);

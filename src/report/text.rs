@@ -318,7 +318,7 @@ fn fmt_sigma(sigma_hz: f64) -> String {
     }
 }
 
-fn kind_name(k: crate::analysis::Kind) -> &'static str {
+pub(crate) fn kind_name(k: crate::analysis::Kind) -> &'static str {
     use crate::analysis::Kind::*;
     match k {
         Switching => "switching",
