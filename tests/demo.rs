@@ -58,7 +58,7 @@ fn demo_json() -> serde_json::Value {
     serde_json::from_str(&stdout(&spurhound(&args))).unwrap()
 }
 
-fn family_near<'a>(doc: &'a serde_json::Value, f0: f64, rel: f64) -> Option<&'a serde_json::Value> {
+fn family_near(doc: &serde_json::Value, f0: f64, rel: f64) -> Option<&serde_json::Value> {
     doc["families"]
         .as_array()?
         .iter()
