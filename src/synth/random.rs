@@ -120,7 +120,8 @@ pub struct TruthLine {
     pub freq_hz: f64,
     /// Declared rms reading, dBµV (dBµV/m radiated), after spread and in-RBW summing.
     pub level_dbuv: f64,
-    /// Rms floor at the line, same unit.
+    /// Rms background at the line, same unit: the floor, power-summed with any comb too fine to
+    /// resolve there (a line under such a comb's level does not show).
     pub floor_dbuv: f64,
 }
 
@@ -441,6 +442,27 @@ fn floor_at(scene: &Scene, freq_hz: f64) -> f64 {
         Some(f) => f.level_dbuv + f.slope_db_per_decade * (freq_hz / scene.scan.start_hz).log10(),
         None => -300.0,
     }
+}
+
+/// What a line at `freq_hz` must stand out of, dBµV rms: the floor power-summed with every comb
+/// of the scene too fine to resolve there (its coherent level through the RBW fills every bucket,
+/// so a line under it does not show).
+fn background_at(scene: &Scene, freq_hz: f64) -> f64 {
+    let s = &scene.scan;
+    let mut power = 10f64.powf(floor_at(scene, freq_hz) / 10.0);
+    let sources = scene.switching.iter().map(|p| (p, false)).chain(scene.clock.iter().map(|p| (p, true)));
+    for (p, is_clock) in sources {
+        if p.f0_hz > resolution(s, freq_hz) || freq_hz < p.f0_hz {
+            continue;
+        }
+        let duty = p.duty.unwrap_or(if is_clock { 0.5 } else { 0.0 });
+        let n = (freq_hz / p.f0_hz).round().max(1.0) as u32;
+        let level = p.fundamental_dbuv + relative_db(p, duty, n, s.rbw_hz);
+        if level.is_finite() {
+            power += 10f64.powf(level / 10.0);
+        }
+    }
+    10.0 * power.log10()
 }
 
 /// Display step at `freq_hz`, Hz.
@@ -1199,7 +1221,8 @@ fn visible_lines(p: &Periodic, is_clock: bool, scene: &Scene) -> Vec<TruthLine> 
         .filter_map(|n| {
             let freq_hz = f64::from(n) * p.f0_hz;
             let level_dbuv = p.fundamental_dbuv + relative_db(p, duty, n, s.rbw_hz);
-            let floor_dbuv = floor_at(scene, freq_hz);
+            // an unresolved comb is its own background: compare it with the floor alone
+            let floor_dbuv = if p.f0_hz > resolution(s, freq_hz) { background_at(scene, freq_hz) } else { floor_at(scene, freq_hz) };
             (level_dbuv.is_finite() && level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(TruthLine {
                 harmonic: n,
                 freq_hz,
@@ -1284,7 +1307,7 @@ fn carrier_set_truth(
         .filter(|c| c.in_dut)
         .filter_map(|c| {
             let f = c.c.freq_hz;
-            let floor_dbuv = floor_at(dut, f);
+            let floor_dbuv = background_at(dut, f);
             let inside = f >= s.start_hz && f <= s.stop_hz;
             (inside && c.c.level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(TruthLine {
                 harmonic: (f / raster).round() as u32,
