@@ -58,8 +58,8 @@ pub struct FamilyFit {
 }
 
 /// The standard uncertainty of a peak's frequency: a share of the display step and of the line
-/// width, plus a quarter of any width beyond a single line (the top of a dithered line can sit
-/// anywhere on its plateau).
+/// width, plus a tenth of any width beyond a single line (such an emission is placed at the
+/// middle of its −6 dB extent, see [`centre_hz`]).
 ///
 /// On a grid coarser than the RBW the bucket maximum catches a line anywhere in its bucket, so
 /// the line lies uniformly within ± step/2 of the point: σ = step/√12. On a fine grid the
@@ -72,7 +72,15 @@ fn peak_sigma_hz(scan: &Scan, peaks: &[FoundPeak], p: &FoundPeak) -> f64 {
     let coarse = ((step / rbw - 0.5) / 1.5).clamp(0.0, 1.0);
     let share = 0.15 + coarse * (1.0 / 12f64.sqrt() - 0.15);
     let base = (share * step).max(0.02 * line);
-    base + (p.width_hz - line).max(0.0) / 4.0
+    // the middle of a plateau's extent is found within about a tenth of its excess width
+    base + (p.width_hz - line).max(0.0) / 10.0
+}
+
+/// Where a peak's source sits: the top for a line; for an emission wider than a line (a dithered
+/// harmonic's plateau, whose top falls anywhere on it) the middle of its −6 dB extent.
+fn centre_hz(scan: &Scan, peaks: &[FoundPeak], p: &FoundPeak) -> f64 {
+    let line = line_width_hz(scan, peaks, p.index);
+    if p.width_hz > 1.3 * line { 0.5 * (p.left_hz + p.right_hz) } else { p.freq_hz }
 }
 
 /// Frequency intervals where the trace is over its detection threshold.
@@ -104,7 +112,7 @@ pub fn offered_lines(
     let mut lines: Vec<Line> = peaks
         .iter()
         .map(|p| Line {
-            freq_hz: p.freq_hz,
+            freq_hz: centre_hz(scan, peaks, p),
             sigma_hz: peak_sigma_hz(scan, peaks, p),
             weight: 1.0 + p.significance_db.clamp(0.0, 20.0) / 20.0,
             strength_db: p.significance_db,
