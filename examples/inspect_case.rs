@@ -100,5 +100,32 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         );
     }
     println!("peaks {} humps {}", a.peaks.len(), a.humps.len());
+    let worst = case
+        .truth
+        .iter()
+        .filter(|t| {
+            t.eligible()
+                && t.origin == spurhound::analysis::Origin::Dut
+                && t.worst_margin_db.is_some_and(|m| m < 0.0)
+        })
+        .min_by(|x, y| {
+            x.worst_margin_db
+                .unwrap_or(0.0)
+                .total_cmp(&y.worst_margin_db.unwrap_or(0.0))
+        });
+    if let Some(w) = worst {
+        let found = a
+            .families
+            .iter()
+            .find(|f| w.rel_error(f.fundamental_hz) < 0.005);
+        let first = a.families.iter().find(|f| f.rank == 1);
+        println!(
+            "TOP1 truth {} ({:?}) found {:?} rank-1 {:?}",
+            w.label,
+            w.worst_margin_db,
+            found.map(|f| (f.rank, f.worst_margin_db)),
+            first.map(|f| (f.fundamental_hz.round(), f.worst_margin_db, f.origin))
+        );
+    }
     Ok(())
 }

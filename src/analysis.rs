@@ -231,12 +231,23 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
             margins: margins(&dut, l),
         })
         .collect();
-    let floor = estimate_floor(&dut, &FloorParams::default());
-    let found = find_peaks(&dut, &floor, &PeakParams::default());
-    let bandwidth = bandwidth::classify(&dut, &found);
-    let humps = bandwidth::find_humps(&dut, &floor, &found, &bandwidth);
-    let ambient_scans: Vec<AmbientScan> =
-        ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect();
+    // the ambient floors are independent of the DUT's stages: estimate them alongside
+    let (ambient_scans, (floor, found, bandwidth, humps)) = std::thread::scope(|s| {
+        let amb = s.spawn(|| {
+            ambient
+                .iter()
+                .map(|a| AmbientScan::new(&a.scan))
+                .collect::<Vec<_>>()
+        });
+        let floor = estimate_floor(&dut, &FloorParams::default());
+        let found = find_peaks(&dut, &floor, &PeakParams::default());
+        let bandwidth = bandwidth::classify(&dut, &found);
+        let humps = bandwidth::find_humps(&dut, &floor, &found, &bandwidth);
+        let amb = amb
+            .join()
+            .unwrap_or_else(|_| ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect());
+        (amb, (floor, found, bandwidth, humps))
+    });
     let evidence: Vec<PeakAmbient> = found
         .iter()
         .map(|p| {

@@ -117,12 +117,8 @@ fn read_options(r: &ReadArgs) -> Result<ReadOptions, CliError> {
     Ok(opts)
 }
 
-fn read_scan(
-    path: &std::path::Path,
-    opts: &ReadOptions,
-    verbose: bool,
-) -> Result<scan::Scan, CliError> {
-    let out = scan::read_scan_file(path, opts)?;
+/// Prints what reading a scan found (warnings always, the rest with `--verbose`).
+fn report_reading(path: &std::path::Path, out: scan::ReadOutcome, verbose: bool) -> scan::Scan {
     let notes = &out.notes;
     if verbose {
         eprintln!(
@@ -148,21 +144,49 @@ fn read_scan(
     for w in &notes.warnings {
         eprintln!("spurhound: warning: {}: {w}", path.display());
     }
-    Ok(out.scan)
+    out.scan
+}
+
+/// Reads the DUT scan and the ambient scans, the ambient ones on a second thread (long scans
+/// are parsed in parallel on a two-core machine); messages come out in argument order.
+fn read_scans(
+    dut: &std::path::Path,
+    ambient: &[std::path::PathBuf],
+    opts: &ReadOptions,
+    ambient_opts: &ReadOptions,
+    verbose: bool,
+) -> Result<(scan::Scan, Vec<scan::Scan>), CliError> {
+    let (d, a) = std::thread::scope(|s| {
+        let amb = s.spawn(|| {
+            ambient
+                .iter()
+                .map(|p| scan::read_scan_file(p, ambient_opts))
+                .collect::<Vec<_>>()
+        });
+        let d = scan::read_scan_file(dut, opts);
+        let a = amb.join().unwrap_or_else(|_| {
+            ambient
+                .iter()
+                .map(|p| scan::read_scan_file(p, ambient_opts))
+                .collect()
+        });
+        (d, a)
+    });
+    let dut_scan = report_reading(dut, d?, verbose);
+    let mut scans = Vec::with_capacity(a.len());
+    for (path, r) in ambient.iter().zip(a) {
+        scans.push(report_reading(path, r?, verbose));
+    }
+    Ok((dut_scan, scans))
 }
 
 fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
     let opts = read_options(&a.read)?;
-    let dut = read_scan(&a.scan, &opts, verbose)?;
     let ambient_opts = ReadOptions {
         role: Some(Role::Ambient),
         ..opts.clone()
     };
-    let ambient = a
-        .ambient
-        .iter()
-        .map(|p| read_scan(p, &ambient_opts, verbose))
-        .collect::<Result<Vec<_>, _>>()?;
+    let (dut, ambient) = read_scans(&a.scan, &a.ambient, &opts, &ambient_opts, verbose)?;
     let limits = a
         .limit
         .iter()

@@ -80,7 +80,11 @@ fn peak_sigma_hz(scan: &Scan, peaks: &[FoundPeak], p: &FoundPeak) -> f64 {
 /// harmonic's plateau, whose top falls anywhere on it) the middle of its −6 dB extent.
 fn centre_hz(scan: &Scan, peaks: &[FoundPeak], p: &FoundPeak) -> f64 {
     let line = line_width_hz(scan, peaks, p.index);
-    if p.width_hz > 1.3 * line { 0.5 * (p.left_hz + p.right_hz) } else { p.freq_hz }
+    if p.width_hz > 1.3 * line {
+        0.5 * (p.left_hz + p.right_hz)
+    } else {
+        p.freq_hz
+    }
 }
 
 /// Frequency intervals where the trace is over its detection threshold.

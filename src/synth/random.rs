@@ -450,7 +450,11 @@ fn floor_at(scene: &Scene, freq_hz: f64) -> f64 {
 fn background_at(scene: &Scene, freq_hz: f64) -> f64 {
     let s = &scene.scan;
     let mut power = 10f64.powf(floor_at(scene, freq_hz) / 10.0);
-    let sources = scene.switching.iter().map(|p| (p, false)).chain(scene.clock.iter().map(|p| (p, true)));
+    let sources = scene
+        .switching
+        .iter()
+        .map(|p| (p, false))
+        .chain(scene.clock.iter().map(|p| (p, true)));
     for (p, is_clock) in sources {
         if p.f0_hz > resolution(s, freq_hz) || freq_hz < p.f0_hz {
             continue;
@@ -1222,7 +1226,11 @@ fn visible_lines(p: &Periodic, is_clock: bool, scene: &Scene) -> Vec<TruthLine> 
             let freq_hz = f64::from(n) * p.f0_hz;
             let level_dbuv = p.fundamental_dbuv + relative_db(p, duty, n, s.rbw_hz);
             // an unresolved comb is its own background: compare it with the floor alone
-            let floor_dbuv = if p.f0_hz > resolution(s, freq_hz) { background_at(scene, freq_hz) } else { floor_at(scene, freq_hz) };
+            let floor_dbuv = if p.f0_hz > resolution(s, freq_hz) {
+                background_at(scene, freq_hz)
+            } else {
+                floor_at(scene, freq_hz)
+            };
             (level_dbuv.is_finite() && level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(TruthLine {
                 harmonic: n,
                 freq_hz,
