@@ -31,6 +31,9 @@ pub struct Context {
     pub ambient: Vec<Scan>,
     /// Corrections added to every scan.
     pub transducers: TransducerChain,
+    /// Further scans of the DUT with another RBW or detector, for the classic narrowband /
+    /// broadband discrimination (the first one is used).
+    pub also: Vec<Scan>,
 }
 
 /// Whether a peak is narrowband (a line) or broadband (wider than the RBW allows).
@@ -87,6 +90,8 @@ pub struct Peak {
     pub ambient_dbuv: Option<f64>,
     /// Index of the display point at the top.
     pub point: usize,
+    /// What a scan given with `--also` says, when one was given.
+    pub discrimination: Option<bandwidth::Discrimination>,
 }
 
 /// A harmonic family: one oscillator's lines.
@@ -265,8 +270,16 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         &in_ambient,
         &FamilyParams::default(),
     );
+    let also = match ctx.also.first() {
+        Some(s) => Some(ctx.transducers.apply(s)?),
+        None => None,
+    };
     let mut peaks = build_peaks(&found, &bandwidth, &evidence, &limits);
+    if let Some(also) = &also {
+        discriminate_peaks(&mut peaks, &found, &dut, also);
+    }
     let families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
+    let humps = explain_humps(humps, &peaks, &dut);
     let verdict = verdict(&limits);
     let mut warnings = Vec::new();
     check_setup(&dut, &ctx.limits, &limits, &mut warnings);
@@ -292,6 +305,42 @@ fn summarise(floor: &Floor) -> FloorSummary {
         samples_per_point: floor.samples_per_point,
         spread_db: floor.spread_db,
     }
+}
+
+/// Per peak, the evidence of a second scan; where it speaks, it decides the bandwidth.
+fn discriminate_peaks(peaks: &mut [Peak], found: &[FoundPeak], dut: &Scan, also: &Scan) {
+    for (p, f) in peaks.iter_mut().zip(found) {
+        p.discrimination = bandwidth::discriminate(dut, f, also);
+        if let Some(d) = p.discrimination {
+            p.bandwidth = if d.nature == bandwidth::Nature::Narrowband {
+                Bandwidth::Narrowband
+            } else {
+                Bandwidth::Broadband
+            };
+        }
+    }
+}
+
+/// Each hump: the family whose harmonic it is (its member peak lies inside), else the likely
+/// source and the rescan that would resolve a comb hidden in it.
+fn explain_humps(
+    mut humps: Vec<bandwidth::Hump>,
+    peaks: &[Peak],
+    dut: &Scan,
+) -> Vec<bandwidth::Hump> {
+    for h in &mut humps {
+        h.family = peaks
+            .iter()
+            .find(|p| p.family.is_some() && p.freq_hz >= h.start_hz && p.freq_hz <= h.stop_hz)
+            .and_then(|p| p.family);
+        if h.family.is_none() {
+            h.likely_source = Some(
+                "a comb finer than the RBW or the display step (a converter in burst mode or at a low switching frequency, a PWM), or broadband noise; a rescan with a narrower RBW shows a comb as lines".into(),
+            );
+            h.rescan = dut.meta.rbw_hz.map(|rbw| bandwidth::rescan_for(h, rbw));
+        }
+    }
+    humps
 }
 
 /// Smallest margin of point `index` over every limit.
@@ -330,6 +379,7 @@ fn build_peaks(
                 over_floor_db: p.over_floor_db,
                 ambient_dbuv: evidence[k].ambient_dbuv,
                 point: p.index,
+                discrimination: None,
             }
         })
         .collect()

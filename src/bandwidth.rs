@@ -28,6 +28,56 @@ pub struct Hump {
     pub level_dbuv: f64,
     /// Median level over the floor across the region (dB).
     pub over_floor_db: f64,
+    /// The family whose harmonic this is (a dithered line's plateau), when one claims it.
+    pub family: Option<usize>,
+    /// What probably made it, when no family claims it.
+    pub likely_source: Option<String>,
+    /// The scan that would resolve it into lines, when it may be a comb.
+    pub rescan: Option<Rescan>,
+}
+
+/// A scan setting to run again.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Rescan {
+    pub start_hz: f64,
+    pub stop_hz: f64,
+    pub rbw_hz: f64,
+    pub points: usize,
+}
+
+/// Resolution bandwidths analyzers commonly offer (1-3-10 series, plus the CISPR 200 Hz, 9 kHz
+/// and 120 kHz), Hz.
+pub const RBW_STEPS_HZ: [f64; 14] = [
+    10.0, 30.0, 100.0, 200.0, 300.0, 1e3, 3e3, 9e3, 10e3, 30e3, 100e3, 120e3, 300e3, 1e6,
+];
+/// Most display points a rescan proposes (common analyzers offer up to about 100,001).
+pub const RESCAN_MAX_POINTS: usize = 100_001;
+
+/// The rescan that shows a comb hidden in a hump as lines: an RBW a tenth of the present one
+/// (the largest standard value at or below it), steps of half that RBW (METHODS §9: step at most
+/// RBW/2), over the hump, narrowed around its top when that needs more than
+/// [`RESCAN_MAX_POINTS`]. A comb whose spacing exceeds twice the new RBW then shows as lines.
+pub fn rescan_for(h: &Hump, rbw_hz: f64) -> Rescan {
+    let want = rbw_hz / 10.0;
+    let rbw = RBW_STEPS_HZ
+        .iter()
+        .copied()
+        .filter(|&r| r <= want)
+        .fold(RBW_STEPS_HZ[0], f64::max);
+    let step = rbw / 2.0;
+    let (mut start, mut stop) = (h.start_hz, h.stop_hz);
+    let max_span = step * (RESCAN_MAX_POINTS - 1) as f64;
+    if stop - start > max_span {
+        start = (h.freq_hz - max_span / 2.0).max(h.start_hz);
+        stop = start + max_span;
+    }
+    let points = (((stop - start) / step).ceil() as usize + 1).clamp(2, RESCAN_MAX_POINTS) | 1;
+    Rescan {
+        start_hz: start,
+        stop_hz: stop,
+        rbw_hz: rbw,
+        points: points.min(RESCAN_MAX_POINTS),
+    }
 }
 
 /// The −6 dB width of a single line on this display: B6 plus one display step.
@@ -141,5 +191,199 @@ fn hump_of(f: &[f64], x: &[f64], floor: &Floor, s: usize, e: usize) -> Hump {
         freq_hz: f[top],
         level_dbuv: x[top],
         over_floor_db,
+        family: None,
+        likely_source: None,
+        rescan: None,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn hump(start: f64, stop: f64) -> Hump {
+        Hump {
+            start_hz: start,
+            stop_hz: stop,
+            freq_hz: 0.5 * (start + stop),
+            level_dbuv: 40.0,
+            over_floor_db: 20.0,
+            family: None,
+            likely_source: None,
+            rescan: None,
+        }
+    }
+
+    #[test]
+    fn rescan_takes_a_tenth_of_the_rbw_and_half_steps() {
+        // band B 9 kHz: a tenth is 900 Hz, the standard value at or below is 300 Hz; steps of
+        // RBW/2 (METHODS §9) over 2 MHz: 2e6/150 + 1 points, odd
+        let r = rescan_for(&hump(2e6, 2.1e6), 9e3);
+        assert_eq!(r.rbw_hz, 300.0);
+        assert_eq!(r.points, ((100e3 / 150.0f64).ceil() as usize + 1) | 1);
+        assert!((r.stop_hz - r.start_hz) <= 150.0 * (r.points - 1) as f64 + 1e-6);
+    }
+
+    #[test]
+    fn a_wide_hump_is_narrowed_around_its_top() {
+        // 120 kHz: 10 kHz RBW, 5 kHz steps, 100,001 points span 500 MHz, less than the hump
+        let r = rescan_for(&hump(30e6, 1e9), 120e3);
+        assert_eq!(r.rbw_hz, 10e3);
+        assert!(r.points <= RESCAN_MAX_POINTS);
+        assert!((r.stop_hz - r.start_hz - 5e3 * (RESCAN_MAX_POINTS - 1) as f64).abs() < 1.0);
+    }
+
+    #[test]
+    fn the_rbw_never_falls_below_the_smallest_step() {
+        assert_eq!(rescan_for(&hump(10e3, 20e3), 50.0).rbw_hz, 10.0);
+    }
+}
+
+/// What a second scan of the same DUT, with another RBW or detector, says about an emission.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Nature {
+    /// Unchanged with the RBW: a line.
+    Narrowband,
+    /// Scales as 20·log10 of the RBW ratio: coherent, impulsive.
+    Impulsive,
+    /// Scales as 10·log10 of the RBW ratio: random noise.
+    NoiseLike,
+    /// Peak and average differ by 6 dB or more.
+    Broadband,
+}
+
+/// The evidence of the second scan at one peak.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Discrimination {
+    /// Level in the second scan minus level in the first (dB).
+    pub delta_db: f64,
+    pub nature: Nature,
+}
+
+/// The classic discrimination of narrowband and broadband emissions from two scans of the same
+/// DUT: `main` with RBW B1 and `also` with RBW B2, or the same RBW with the peak and average
+/// detectors.
+///
+/// # Formula
+/// ```text
+/// Δ = L_also − L_main;  narrowband: Δ ≈ 0;  noise: Δ ≈ 10·log10(B2/B1);  impulsive: Δ ≈ 20·log10(B2/B1)
+/// same RBW, peak and average: peak − average < 6 dB narrowband, otherwise broadband
+/// ```
+/// # Source
+/// Impulse bandwidth (IEEE Std 376-1975): an impulsive reading scales with the bandwidth; random
+/// noise reads 10·log10(B2/B1); a line does not change (METHODS.md §6). Peak minus average
+/// under 6 dB means narrowband (CISPR 25 practice, METHODS.md §6).
+///
+/// `None` when the second scan has the same RBW and detector, or lacks what is needed.
+pub fn discriminate(main: &Scan, peak: &FoundPeak, also: &Scan) -> Option<Discrimination> {
+    let (b1, b2) = (main.meta.rbw_hz?, also.meta.rbw_hz?);
+    let f = also.freq_hz.as_slice()?;
+    let half = 0.5 * b1.max(b2) + local_step(also, f.partition_point(|&x| x < peak.freq_hz));
+    let lo = f.partition_point(|&x| x < peak.freq_hz - half);
+    let hi = f.partition_point(|&x| x <= peak.freq_hz + half);
+    let level = (lo..hi).map(|i| also.level_dbuv[i]).reduce(f64::max)?;
+    let delta_db = level - peak.level_dbuv;
+    let ratio_db = 10.0 * (b2 / b1).log10();
+    if ratio_db.abs() >= 1.5 {
+        let expected = [
+            (Nature::Narrowband, 0.0),
+            (Nature::NoiseLike, ratio_db),
+            (Nature::Impulsive, 2.0 * ratio_db),
+        ];
+        let nature = expected
+            .iter()
+            .min_by(|a, b| (delta_db - a.1).abs().total_cmp(&(delta_db - b.1).abs()))
+            .map(|e| e.0)?;
+        return Some(Discrimination { delta_db, nature });
+    }
+    use crate::scan::Detector::{Average, Peak};
+    let peak_minus_average = match (main.meta.detector?, also.meta.detector?) {
+        (Peak, Average) => -delta_db,
+        (Average, Peak) => delta_db,
+        _ => return None,
+    };
+    let nature = if peak_minus_average < 6.0 {
+        Nature::Narrowband
+    } else {
+        Nature::Broadband
+    };
+    Some(Discrimination { delta_db, nature })
+}
+
+#[cfg(test)]
+mod discrimination_tests {
+    use super::*;
+    use crate::scan::{Detector, ScanMeta};
+
+    fn scan(rbw: f64, det: Detector, level: f64) -> Scan {
+        let f: Vec<f64> = (0..201).map(|i| 1e6 + f64::from(i) * 500.0).collect();
+        let l: Vec<f64> = f
+            .iter()
+            .map(|&x| if (x - 1.05e6).abs() < 1.0 { level } else { 0.0 })
+            .collect();
+        Scan::new(
+            f,
+            l,
+            ScanMeta {
+                rbw_hz: Some(rbw),
+                detector: Some(det),
+                ..ScanMeta::default()
+            },
+        )
+        .unwrap()
+    }
+
+    fn peak_at(level: f64) -> FoundPeak {
+        FoundPeak {
+            index: 100,
+            freq_hz: 1.05e6,
+            level_dbuv: level,
+            prominence_db: 30.0,
+            left_base: 0,
+            right_base: 200,
+            left_hz: 1.045e6,
+            right_hz: 1.055e6,
+            width_hz: 9e3,
+            significance_db: 20.0,
+            over_floor_db: 30.0,
+        }
+    }
+
+    #[test]
+    fn rbw_ratio_tells_line_noise_and_impulse() {
+        // source: METHODS §6, 9 kHz to 1 kHz: noise −9.54 dB (10·log10), impulsive −19.08 dB
+        // (20·log10, impulse bandwidth), a line unchanged
+        let main = scan(9e3, Detector::Peak, 50.0);
+        for (also_level, want) in [
+            (49.6, Nature::Narrowband),
+            (40.4, Nature::NoiseLike),
+            (30.9, Nature::Impulsive),
+        ] {
+            let also = scan(1e3, Detector::Peak, also_level);
+            assert_eq!(
+                discriminate(&main, &peak_at(50.0), &also).unwrap().nature,
+                want,
+                "{also_level}"
+            );
+        }
+    }
+
+    #[test]
+    fn peak_minus_average_under_6_db_is_narrowband() {
+        // source: CISPR 25 practice quoted in METHODS §6: peak − average < 6 dB narrowband
+        let main = scan(9e3, Detector::Peak, 50.0);
+        let close = scan(9e3, Detector::Average, 46.0);
+        assert_eq!(
+            discriminate(&main, &peak_at(50.0), &close).unwrap().nature,
+            Nature::Narrowband
+        );
+        let far = scan(9e3, Detector::Average, 38.0);
+        assert_eq!(
+            discriminate(&main, &peak_at(50.0), &far).unwrap().nature,
+            Nature::Broadband
+        );
+        let same = scan(9e3, Detector::Peak, 50.0);
+        assert_eq!(discriminate(&main, &peak_at(50.0), &same), None);
     }
 }

@@ -67,6 +67,10 @@ pub struct AnalyzeArgs {
     /// A correction table added to every reading (LISN factor, limiter, cable, antenna factor); repeatable, applied in order.
     #[arg(long, value_name = "FILE")]
     pub transducer: Vec<PathBuf>,
+    /// Another scan of the DUT with a different RBW or detector: narrowband and broadband are
+    /// told apart by how each peak changes.
+    #[arg(long, value_name = "FILE")]
+    pub also: Vec<PathBuf>,
     /// The board's oscillator inventory (TOML).
     #[arg(long, value_name = "FILE")]
     pub sources: Option<PathBuf>,

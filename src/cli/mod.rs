@@ -187,6 +187,16 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
         ..opts.clone()
     };
     let (dut, ambient) = read_scans(&a.scan, &a.ambient, &opts, &ambient_opts, verbose)?;
+    let also_opts = ReadOptions {
+        rbw_hz: None,
+        detector: None,
+        ..opts.clone()
+    };
+    let also = a
+        .also
+        .iter()
+        .map(|p| scan::read_scan_file(p, &also_opts).map(|r| report_reading(p, r, verbose)))
+        .collect::<Result<Vec<_>, _>>()?;
     let limits = a
         .limit
         .iter()
@@ -213,6 +223,7 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
         limits,
         ambient,
         transducers: TransducerChain { items },
+        also,
     };
     let analysis = analyze(&dut, &ctx)?;
     let format = match a.format {

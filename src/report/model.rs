@@ -75,6 +75,7 @@ pub struct PeakDoc {
     pub width_hz: f64,
     pub significance_db: f64,
     pub ambient_dbuv: Option<f64>,
+    pub discrimination: Option<crate::bandwidth::Discrimination>,
 }
 
 #[derive(Debug, Serialize)]
@@ -133,6 +134,7 @@ fn peak_doc(p: &Peak) -> PeakDoc {
         width_hz: p.width_hz,
         significance_db: p.significance_db,
         ambient_dbuv: p.ambient_dbuv,
+        discrimination: p.discrimination,
     }
 }
 

@@ -293,19 +293,33 @@ fn humps_section(a: &Analysis, out: &mut String) {
     let _ = writeln!(out, "Broadband regions ({})", a.humps.len());
     let _ = writeln!(
         out,
-        "  {:>14} {:>14} {:>14} {:>7} {:>11}",
+        "  {:>14} {:>14} {:>14} {:>7} {:>10}  source",
         "from", "to", "top at", "level", "over floor"
     );
     for h in a.humps.iter().take(MAX_PEAKS) {
+        let source = h
+            .family
+            .map_or("unknown".to_string(), |f| format!("family {f}"));
         let _ = writeln!(
             out,
-            "  {:>14} {:>14} {:>14} {:>7.1} {:>8.1} dB",
+            "  {:>14} {:>14} {:>14} {:>7.1} {:>7.1} dB  {}",
             fmt_hz(h.start_hz),
             fmt_hz(h.stop_hz),
             fmt_hz(h.freq_hz),
             h.level_dbuv,
-            h.over_floor_db
+            h.over_floor_db,
+            source
         );
+        if let Some(r) = h.rescan {
+            let text = format!(
+                "not claimed by a family: perhaps a comb finer than the RBW or the step; rescan {} to {} with RBW {}, {} points",
+                fmt_hz(r.start_hz),
+                fmt_hz(r.stop_hz),
+                fmt_hz(r.rbw_hz),
+                r.points
+            );
+            wrap_into(out, &text, "     ", "     ");
+        }
     }
     out.push('\n');
 }
