@@ -279,9 +279,19 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         discriminate_peaks(&mut peaks, &found, &dut, also);
     }
     let families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
-    let humps = explain_humps(humps, &peaks, &dut);
-    let verdict = verdict(&limits);
+    let mut humps = explain_humps(humps, &peaks, &dut);
     let mut warnings = Vec::new();
+    if let Some(h) = steady_background(&dut, &floor) {
+        warnings.push(Warning {
+            code: "floor-is-signal",
+            message: format!(
+                "the trace never falls to a receiver floor: its lowest level fluctuates like {:.0} independent samples per point, far steadier than noise on this grid, so a steady broadband emission (a comb finer than the RBW) fills it; lines under it cannot be seen",
+                floor.samples_per_point
+            ),
+        });
+        humps.push(h);
+    }
+    let verdict = verdict(&limits);
     check_setup(&dut, &ctx.limits, &limits, &mut warnings);
     check_ambient(&dut, &ambient, &mut warnings);
     let floor = summarise(&floor);
@@ -305,6 +315,33 @@ fn summarise(floor: &Floor) -> FloorSummary {
         samples_per_point: floor.samples_per_point,
         spread_db: floor.spread_db,
     }
+}
+
+/// Noise in a positive-peak bucket is the maximum of about k·step/RBW independent envelope
+/// samples (k ≈ 2.5, the sweep-time factor; at least one). A floor whose fitted law is more
+/// than ten times steadier than that, and steadier than 30 samples, is not noise but a steady
+/// emission filling the trace: reported as one hump over the whole scan.
+fn steady_background(dut: &Scan, floor: &Floor) -> Option<bandwidth::Hump> {
+    let rbw = dut.meta.rbw_hz?;
+    let step = bandwidth::local_step(dut, dut.len() / 2);
+    let expected = (2.5 * step / rbw).max(1.0);
+    if floor.samples_per_point < (10.0 * expected).max(30.0) {
+        return None;
+    }
+    let (start_hz, stop_hz) = dut.span_hz();
+    let top = (0..dut.len()).max_by(|&a, &b| dut.level_dbuv[a].total_cmp(&dut.level_dbuv[b]))?;
+    let mut h = bandwidth::Hump {
+        start_hz,
+        stop_hz,
+        freq_hz: dut.freq_hz[top],
+        level_dbuv: dut.level_dbuv[top],
+        over_floor_db: 0.0,
+        family: None,
+        likely_source: Some("a steady broadband emission over the whole scan (a comb finer than the RBW or the step, a PWM or burst-mode converter); a rescan with a narrower RBW shows a comb as lines".into()),
+        rescan: None,
+    };
+    h.rescan = Some(bandwidth::rescan_for(&h, rbw));
+    Some(h)
 }
 
 /// Per peak, the evidence of a second scan; where it speaks, it decides the bandwidth.

@@ -1398,6 +1398,8 @@ pub struct CaseScore {
     pub top1_hit: bool,
     /// Unresolved combs in the DUT scene with visible lines (hump truth).
     pub unresolved_combs: usize,
+    /// Of those, with a reported hump inside the span of their visible lines.
+    pub humps_found: usize,
     /// Labels of eligible truth families that were not matched.
     pub missed: Vec<String>,
     /// Fundamentals (Hz) of reported families (≥ 3 harmonics) that matched nothing.
@@ -1412,15 +1414,20 @@ pub struct CaseScore {
 /// below [`MATCH_REL`] (against f0 or an accepted alternative) is a candidate; candidates are
 /// taken greedily by increasing error, each truth and each report used at most once.
 pub fn score_case(case: &Case, analysis: &Analysis) -> CaseScore {
-    score_reports(case, &analysis.families, &analysis.peaks)
+    score_reports(case, &analysis.families, &analysis.peaks, &analysis.humps)
 }
 
 /// The score of a case whose analysis failed or crashed: nothing reported.
 pub fn score_failed(case: &Case) -> CaseScore {
-    score_reports(case, &[], &[])
+    score_reports(case, &[], &[], &[])
 }
 
-fn score_reports(case: &Case, families: &[Family], peaks: &[Peak]) -> CaseScore {
+fn score_reports(
+    case: &Case,
+    families: &[Family],
+    peaks: &[Peak],
+    humps: &[crate::bandwidth::Hump],
+) -> CaseScore {
     let truth = &case.truth;
     let pairs = match_families(truth, families);
     let mut sc = CaseScore {
@@ -1448,6 +1455,14 @@ fn score_reports(case: &Case, families: &[Family], peaks: &[Peak]) -> CaseScore 
         }
         if t.in_dut && !t.resolved && t.kind != Kind::Broadcast && !t.lines.is_empty() {
             sc.unresolved_combs += 1;
+            let lo = t
+                .lines
+                .iter()
+                .map(|l| l.freq_hz)
+                .fold(f64::INFINITY, f64::min);
+            let hi = t.lines.iter().map(|l| l.freq_hz).fold(0.0, f64::max);
+            sc.humps_found +=
+                usize::from(humps.iter().any(|h| h.start_hz <= hi && h.stop_hz >= lo));
         }
     }
     for (ri, r) in families.iter().enumerate() {
@@ -1579,6 +1594,7 @@ impl Totals {
         t.lines += s.lines;
         t.lines_found += s.lines_found;
         t.unresolved_combs += s.unresolved_combs;
+        t.humps_found += s.humps_found;
         self.top1_cases += usize::from(s.top1_case);
         self.top1_hits += usize::from(s.top1_hit);
     }
@@ -1610,7 +1626,7 @@ impl Totals {
             origin_accuracy: ratio(t.origin_ok, t.matched),
             kind_accuracy: ratio(t.kind_ok, t.matched),
             top1_rate: ratio(self.top1_hits, self.top1_cases),
-            hump_detection: None,
+            hump_detection: ratio(t.humps_found, t.unresolved_combs),
             eligible_families: t.eligible,
             reported_families: t.reported,
             matched_families: t.matched,
@@ -1665,8 +1681,7 @@ pub struct Summary {
     pub kind_accuracy: Option<f64>,
     /// Cases whose rank-1 family is the worst-failing DUT family / cases with a failing one.
     pub top1_rate: Option<f64>,
-    /// Unresolved combs shown as humps / unresolved combs; `None` until the analysis exposes
-    /// humps.
+    /// Unresolved combs with a reported hump over their visible lines / unresolved combs.
     pub hump_detection: Option<f64>,
     /// Denominator of the family recall.
     pub eligible_families: usize,
