@@ -320,8 +320,14 @@ fn summarise(floor: &Floor) -> FloorSummary {
 /// Noise in a positive-peak bucket is the maximum of about k·step/RBW independent envelope
 /// samples (k ≈ 2.5, the sweep-time factor; at least one). A floor whose fitted law is more
 /// than ten times steadier than that, and steadier than 30 samples, is not noise but a steady
-/// emission filling the trace: reported as one hump over the whole scan.
+/// emission filling the trace: reported as one hump over the whole scan (traces of 200 points
+/// or more; fewer cannot fit the law).
 fn steady_background(dut: &Scan, floor: &Floor) -> Option<bandwidth::Hump> {
+    // the law needs points to be fitted at all
+    const MIN_POINTS: usize = 200;
+    if dut.len() < MIN_POINTS {
+        return None;
+    }
     let rbw = dut.meta.rbw_hz?;
     let step = bandwidth::local_step(dut, dut.len() / 2);
     let expected = (2.5 * step / rbw).max(1.0);
