@@ -842,6 +842,46 @@ mod tests {
         assert!(a.warnings.iter().any(|w| w.code == "rbw-not-cispr"));
     }
 
+    fn grid(levels: Vec<f64>) -> Scan {
+        let f: Vec<f64> = (0..levels.len())
+            .map(|i| 150e3 + i as f64 * 4.5e3)
+            .collect();
+        let meta = ScanMeta {
+            rbw_hz: Some(9e3),
+            detector: Some(Detector::Peak),
+            ..ScanMeta::default()
+        };
+        Scan::new(f, levels, meta).unwrap()
+    }
+
+    #[test]
+    fn a_steady_trace_is_a_broadband_emission_not_a_floor() {
+        // a comb finer than the RBW fills every bucket: within ±0.05 dB everywhere
+        let steady: Vec<f64> = (0..2000)
+            .map(|i| 40.0 + 0.05 * ((i * 7919) % 11) as f64 / 11.0)
+            .collect();
+        let a = analyze(&grid(steady), &Context::default()).unwrap();
+        assert!(a.warnings.iter().any(|w| w.code == "floor-is-signal"));
+        assert!(
+            a.humps
+                .iter()
+                .any(|h| h.rescan.is_some() && h.likely_source.is_some())
+        );
+        // noise: the maximum of two Rayleigh samples per point (deterministic draws)
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
+        let noise: Vec<f64> = (0..2000)
+            .map(|_| {
+                let x = (0..2)
+                    .map(|_| (-2.0 * rng.random::<f64>().max(1e-300).ln()).sqrt())
+                    .fold(0.0, f64::max);
+                20.0 * f64::log10(x)
+            })
+            .collect();
+        let a = analyze(&grid(noise), &Context::default()).unwrap();
+        assert!(!a.warnings.iter().any(|w| w.code == "floor-is-signal"));
+    }
+
     #[test]
     fn frequencies_print_for_people() {
         assert_eq!(fmt_hz(150e3), "150 kHz");
