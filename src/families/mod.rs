@@ -108,7 +108,7 @@ fn occupied(scan: &Scan, floor: &Floor) -> Vec<(f64, f64)> {
 /// plus a quarter of a line width (the edges of a plateau are found within about a line width); the
 /// other peaks inside it are not offered. Returns the lines, which are free, and the width each
 /// line stands for.
-pub fn offered_lines(
+fn offered_lines(
     scan: &Scan,
     peaks: &[FoundPeak],
     humps: &[Hump],
