@@ -5,9 +5,12 @@
 //! # Pipeline
 //! `scan` reads a CSV export into a [`Scan`]; `correct` adds the transducer chain (LISN factor,
 //! limiter, cable loss, antenna factor); `limits` supplies limit lines and per-point margins;
-//! [`analyze`] runs every stage in order and returns an [`Analysis`], which `report` renders as
-//! text, JSON or SVG. `synth` renders analyzer traces from declared sources, for demos and for
-//! ground-truth tests.
+//! `floor` tracks the receiver floor and sets the detection threshold from its fluctuation;
+//! `peaks` finds the emissions; `bandwidth` tells narrowband from broadband and finds humps;
+//! `families` groups lines into harmonic families and broadcast sets; `ambient` says which are
+//! the lab's; `attribution` names their kind, ranks them and suggests remedies. [`analyze`] runs
+//! every stage in order and returns an [`Analysis`], which `report` renders as text, JSON, CSV or
+//! SVG. `synth` renders analyzer traces from declared sources, for demos and for ground truth.
 //!
 //! # Conventions
 //! - Frequencies are in hertz (`freq_hz`), levels in dBµV (or dBµV/m, dBµA as the scan's
