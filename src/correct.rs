@@ -57,11 +57,7 @@ impl Transducer {
     /// # Errors
     /// [`CorrectError::File`] for unreadable files, bad rows and rows that do not ascend.
     pub fn read_file(path: &std::path::Path) -> Result<Transducer, CorrectError> {
-        let file = path.display().to_string();
-        let bytes = std::fs::read(path).map_err(|e| ScanError::Io {
-            file: file.clone(),
-            reason: e.to_string(),
-        })?;
+        let (bytes, file) = crate::scan::table::read_bytes(path)?;
         Transducer::parse(&bytes, &file)
     }
 
@@ -71,17 +67,9 @@ impl Transducer {
     /// As [`Transducer::read_file`].
     pub fn parse(bytes: &[u8], file: &str) -> Result<Transducer, CorrectError> {
         let table = read_table(bytes, file, (0, 1))?;
-        let header = table
-            .header
-            .as_ref()
-            .map(|h| h.1.clone())
-            .unwrap_or_default();
-        let freq_unit = header
-            .first()
-            .and_then(|c| FreqUnit::find_in(c))
-            .unwrap_or(FreqUnit::Hz);
-        let mut result_quantity = header
-            .get(1)
+        let freq_unit = table.header_freq_unit().map_or(FreqUnit::Hz, |h| h.1);
+        let mut result_quantity = table
+            .header_cell(1)
             .filter(|c| names_per_metre(c))
             .map(|_| Quantity::FieldStrength);
         for s in table

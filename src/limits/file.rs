@@ -12,11 +12,7 @@ use crate::units::{FreqUnit, LevelUnit, Quantity};
 /// [`LimitError::File`] for unreadable files and bad rows, [`LimitError::StepTooLong`] for
 /// three rows at one frequency.
 pub fn read_limit_file(path: &std::path::Path) -> Result<Limit, LimitError> {
-    let file = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| ScanError::Io {
-        file: file.clone(),
-        reason: e.to_string(),
-    })?;
+    let (bytes, file) = crate::scan::table::read_bytes(path)?;
     parse_limit(&bytes, &file)
 }
 
@@ -26,18 +22,10 @@ pub fn read_limit_file(path: &std::path::Path) -> Result<Limit, LimitError> {
 /// As [`read_limit_file`].
 pub fn parse_limit(bytes: &[u8], file: &str) -> Result<Limit, LimitError> {
     let table = read_table(bytes, file, (0, 1))?;
-    let header = table
-        .header
-        .as_ref()
-        .map(|h| h.1.clone())
-        .unwrap_or_default();
-    let freq_unit = header
-        .first()
-        .and_then(|c| FreqUnit::find_in(c))
-        .unwrap_or(FreqUnit::Hz);
-    let mut quantity = header
-        .get(1)
-        .and_then(|c| LevelUnit::find_in(c))
+    let freq_unit = table.header_freq_unit().map_or(FreqUnit::Hz, |h| h.1);
+    let mut quantity = table
+        .header_cell(1)
+        .and_then(LevelUnit::find_in)
         .map_or(Quantity::Voltage, |u| u.quantity());
     let mut detector = Detector::QuasiPeak;
     let mut name = file.to_string();

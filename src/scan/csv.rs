@@ -87,11 +87,7 @@ pub fn read_scan_file(
     path: &std::path::Path,
     opts: &ReadOptions,
 ) -> Result<ReadOutcome, ScanError> {
-    let file = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| ScanError::Io {
-        file: file.clone(),
-        reason: e.to_string(),
-    })?;
+    let (bytes, file) = super::table::read_bytes(path)?;
     read_scan_bytes(&bytes, &file, opts)
 }
 
@@ -293,13 +289,8 @@ fn settings_for(table: &Table, field: Field) -> impl Iterator<Item = &Setting> {
 
 fn freq_unit_stated(table: &Table, opts: &ReadOptions) -> bool {
     opts.freq_unit.is_some()
-        || header_freq_unit(table).is_some()
+        || table.header_freq_unit().is_some()
         || settings_for(table, Field::FreqUnit).next().is_some()
-}
-
-fn header_freq_unit(table: &Table) -> Option<(usize, FreqUnit)> {
-    let (line, cells) = table.header.as_ref()?;
-    Some((*line, FreqUnit::find_in(cells.first()?)?))
 }
 
 /// Picks one unit from the file's statements and the flag; contradictions are errors.
@@ -339,7 +330,7 @@ fn resolve_freq_unit(
     opts: &ReadOptions,
     notes: &mut IngestNotes,
 ) -> Result<FreqUnit, ScanError> {
-    let mut stated: Vec<(usize, FreqUnit)> = header_freq_unit(table).into_iter().collect();
+    let mut stated: Vec<(usize, FreqUnit)> = table.header_freq_unit().into_iter().collect();
     stated.extend(
         settings_for(table, Field::FreqUnit)
             .filter_map(|s| Some((s.line, FreqUnit::find_in(&s.value)?))),

@@ -84,6 +84,34 @@ pub struct Table {
     pub decimal_comma: bool,
 }
 
+/// The bytes of a file, or [`ScanError::Io`] naming it: the one place the readers open files.
+pub fn read_bytes(path: &std::path::Path) -> Result<(Vec<u8>, String), ScanError> {
+    let file = path.display().to_string();
+    match std::fs::read(path) {
+        Ok(bytes) => Ok((bytes, file)),
+        Err(e) => Err(ScanError::Io {
+            file,
+            reason: e.to_string(),
+        }),
+    }
+}
+
+impl Table {
+    /// Cell `i` of the header line, when there is one.
+    pub fn header_cell(&self, i: usize) -> Option<&str> {
+        self.header
+            .as_ref()
+            .and_then(|h| h.1.get(i))
+            .map(String::as_str)
+    }
+
+    /// The frequency unit the header's first cell names, with the header's line number.
+    pub fn header_freq_unit(&self) -> Option<(usize, crate::units::FreqUnit)> {
+        let line = self.header.as_ref()?.0;
+        Some((line, crate::units::FreqUnit::find_in(self.header_cell(0)?)?))
+    }
+}
+
 /// Reads a table. `columns` are the 0-based columns of the two numbers.
 ///
 /// # Errors
