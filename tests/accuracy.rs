@@ -11,7 +11,7 @@
 
 use spurhound::analyze;
 use spurhound::synth::random::{
-    CaseOptions, Totals, line_tolerance, random_case, score_case, score_failed,
+    CaseOptions, Levels, Totals, line_tolerance, random_case, score_case, score_failed,
 };
 use spurhound::synth::render;
 use std::panic::{AssertUnwindSafe, catch_unwind};
@@ -124,13 +124,14 @@ fn truth_lines_show_in_the_rendered_trace() {
 /// Accuracy targets of the attribution engine on 40 cases (release; `--ignored`).
 /// Levels the engine reached on these 40 cases when this guard was set (release build): a
 /// change that falls below them is a regression. They are not the targets.
-mod floor_levels {
-    pub const RECALL: f64 = 0.43;
-    pub const PRECISION: f64 = 0.78;
-    pub const ORIGIN: f64 = 0.9;
-    pub const KIND: f64 = 0.9;
-    pub const TOP1: f64 = 0.48;
-}
+const TODAY: Levels = Levels {
+    recall: 0.43,
+    precision: 0.78,
+    median_f0_rel_error: spurhound::synth::random::targets::MEDIAN_F0_REL_ERROR,
+    origin: 0.9,
+    kind: 0.9,
+    top1: 0.48,
+};
 
 #[test]
 #[ignore = "accuracy on 40 cases: run in release with --ignored"]
@@ -146,23 +147,10 @@ fn accuracy_targets_on_40_cases() {
         return;
     }
     // until the engine meets the targets, CI guards against regressions below today's levels
-    let at_least = |name: &str, got: Option<f64>, floor: f64| {
-        let got = got.unwrap_or(0.0);
-        assert!(got >= floor, "{name} {got:.3} fell below {floor}\n{s:?}");
-    };
-    at_least("family recall", s.family_recall, floor_levels::RECALL);
-    at_least(
-        "family precision",
-        s.family_precision,
-        floor_levels::PRECISION,
-    );
-    at_least("origin accuracy", s.origin_accuracy, floor_levels::ORIGIN);
-    at_least("kind accuracy", s.kind_accuracy, floor_levels::KIND);
-    at_least("top-1 rate", s.top1_rate, floor_levels::TOP1);
-    let err = s.median_f0_rel_error.unwrap_or(1.0);
+    let regressions = s.shortfalls(&TODAY);
     assert!(
-        err <= spurhound::synth::random::targets::MEDIAN_F0_REL_ERROR,
-        "median f0 error {err}"
+        regressions.is_empty(),
+        "fell below today's levels: {regressions:?}\n{s:?}"
     );
 }
 
