@@ -247,7 +247,7 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         let floor = estimate_floor(&dut, &FloorParams::default());
         let found = find_peaks(&dut, &floor, &PeakParams::default());
         let bandwidth = bandwidth::classify(&dut, &found);
-        let humps = bandwidth::find_humps(&dut, &floor, &found, &bandwidth);
+        let humps = bandwidth::find_humps(&dut, &floor, &found);
         let amb = amb
             .join()
             .unwrap_or_else(|_| ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect());
@@ -275,9 +275,10 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         None => None,
     };
     let mut peaks = build_peaks(&found, &bandwidth, &evidence, &limits);
-    if let Some(also) = &also {
+    let also_silent = also.as_ref().is_some_and(|also| {
         discriminate_peaks(&mut peaks, &found, &dut, also);
-    }
+        !peaks.is_empty() && peaks.iter().all(|p| p.discrimination.is_none())
+    });
     let families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
     let mut humps = explain_humps(humps, &peaks, &dut);
     let mut warnings = Vec::new();
@@ -292,6 +293,12 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         humps.push(h);
     }
     let verdict = verdict(&limits);
+    if also_silent {
+        warnings.push(Warning {
+            code: "also-unused",
+            message: "the --also scan told nothing: it needs a stated RBW in both scans and another RBW (or peak against average with the same RBW)".into(),
+        });
+    }
     check_setup(&dut, &ctx.limits, &limits, &mut warnings);
     check_ambient(&dut, &ambient, &mut warnings);
     let floor = summarise(&floor);

@@ -138,12 +138,7 @@ pub const HUMP_WINDOW_WIDTHS: f64 = 1.5;
 
 /// Broadband regions: runs of points around which at least [`HUMP_FILL`] of the trace is over
 /// the detection threshold, at least [`HUMP_MIN_WIDTHS`] line widths wide.
-pub fn find_humps(
-    scan: &Scan,
-    floor: &Floor,
-    peaks: &[FoundPeak],
-    _bandwidth: &[Bandwidth],
-) -> Vec<Hump> {
+pub fn find_humps(scan: &Scan, floor: &Floor, peaks: &[FoundPeak]) -> Vec<Hump> {
     let f = scan.freq_hz.to_vec();
     let x = scan.level_dbuv.to_vec();
     // prefix counts of points over the threshold

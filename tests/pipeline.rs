@@ -44,6 +44,21 @@ fn a_second_rbw_marks_a_carrier_narrowband() {
 }
 
 #[test]
+fn a_second_scan_with_the_same_settings_is_flagged() {
+    let main = render(&parse_scene(&scene(9e3, 2001), "nine.toml").unwrap()).unwrap();
+    let same = render(&parse_scene(&scene(9e3, 2001), "again.toml").unwrap()).unwrap();
+    let a = analyze(
+        &main,
+        &Context {
+            also: vec![same],
+            ..Context::default()
+        },
+    )
+    .unwrap();
+    assert!(a.warnings.iter().any(|w| w.code == "also-unused"));
+}
+
+#[test]
 fn without_a_second_scan_there_is_no_discrimination() {
     let main = render(&parse_scene(&scene(9e3, 2001), "nine.toml").unwrap()).unwrap();
     let a = analyze(&main, &Context::default()).unwrap();

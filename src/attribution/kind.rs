@@ -86,7 +86,7 @@ pub fn classify(fit: &FamilyFit, origin: Origin) -> (Kind, Vec<String>) {
     (best.0, reasons)
 }
 
-/// The crystal value a fundamental matches, or one whose small multiple it is not.
+/// The standard crystal value within [`CRYSTAL_MATCH`] of a fundamental, if any.
 pub fn crystal_match(f0_hz: f64) -> Option<f64> {
     CRYSTALS_HZ
         .iter()
