@@ -33,14 +33,15 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     );
     for t in &case.truth {
         println!(
-            "TRUTH {:<40} f0 {:>12.1} {:?}/{:?} eligible {} vis {} worst {:?}",
+            "TRUTH {:<40} f0 {:>12.1} {:?}/{:?} eligible {} vis {} worst {:?} spread {:.2} %",
             t.label,
             t.f0_hz,
             t.kind,
             t.origin,
             t.eligible(),
             t.harmonics_visible.len(),
-            t.worst_margin_db.map(|m| (m * 10.0).round() / 10.0)
+            t.worst_margin_db.map(|m| (m * 10.0).round() / 10.0),
+            t.spread_pct
         );
         if !t.eligible() {
             continue;
@@ -100,6 +101,20 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         );
     }
     println!("peaks {} humps {}", a.peaks.len(), a.humps.len());
+    // DUMP=lo:hi (Hz) prints the trace, floor and threshold of the points in that range
+    if let Some((lo, hi)) = std::env::var("DUMP").ok().and_then(|d| {
+        let (lo, hi) = d.split_once(':')?;
+        Some((lo.parse::<f64>().ok()?, hi.parse::<f64>().ok()?))
+    }) {
+        for (i, &f) in a.scan.freq_hz.iter().enumerate() {
+            if (lo..=hi).contains(&f) {
+                println!(
+                    "   {f:>14.0} {:>7.1} floor {:>6.1} thr {:>6.1}",
+                    a.scan.level_dbuv[i], floor.floor_dbuv[i], floor.threshold_dbuv[i]
+                );
+            }
+        }
+    }
     let worst = case
         .truth
         .iter()

@@ -185,7 +185,7 @@ pub fn find_families(
         for &(i, _) in &c.hits {
             sieve.free[i] = false;
         }
-        if !absorb(&mut found, &c, &lines) && !near_duplicate(&found, &c) {
+        if !absorb(&mut found, &c, &lines) && !near_duplicate(&found, &c, &lines) {
             found.push(c);
         }
     }
@@ -225,16 +225,48 @@ pub fn find_families(
     out
 }
 
-/// A fundamental within this share of an earlier family's is a fragment of that family: the lines of a dithered source, each
-/// plateau split into several tops, give several near-equal fundamentals.
+/// A fundamental within this share of an earlier family's may be a fragment of that family:
+/// the lines of a dithered source, each plateau split into several tops, give several
+/// near-equal fundamentals.
 const DUPLICATE_SHARE: f64 = 0.03;
 
-/// Whether `c` is a fragment of an earlier family (see [`DUPLICATE_SHARE`]); its lines stay
-/// claimed, so they do not come back as another fragment.
-fn near_duplicate(found: &[Candidate], c: &Candidate) -> bool {
+/// Whether `c` is a fragment of an earlier family: its fundamental lies within
+/// [`DUPLICATE_SHARE`] of that family's and most of its lines lie inside that family's emissions
+/// (within half of their −6 dB extent, which for a dithered harmonic grows with its number, plus
+/// three uncertainties), or its harmonic numbers overlap less than half of their own range with
+/// the family's (the fragments of one comb are short runs side by side). Two converters a few
+/// per cent apart, each with narrow lines over the same harmonic numbers, are two families. A fragment's lines stay claimed, so they do not come back as another fragment.
+fn near_duplicate(found: &[Candidate], c: &Candidate, lines: &[Line]) -> bool {
     found.iter().any(|f| {
         let ratio = c.fundamental_hz / f.fundamental_hz;
-        (ratio - 1.0).abs() < DUPLICATE_SHARE
+        if (ratio - 1.0).abs() >= DUPLICATE_SHARE {
+            return false;
+        }
+        // the family's emissions: relative width per harmonic number (median over its members)
+        let mut rel: Vec<f64> = f
+            .hits
+            .iter()
+            .map(|&(i, n)| lines[i].width_hz / f64::from(n))
+            .collect();
+        let per_n = crate::floor::quantile_in_place(&mut rel, 0.5);
+        let inside = c
+            .hits
+            .iter()
+            .filter(|&&(i, _)| {
+                let l = &lines[i];
+                let m = (l.freq_hz / f.fundamental_hz).round().max(1.0);
+                let half = 0.5 * (m * per_n).max(l.width_hz);
+                let tol = 3.0 * l.sigma_hz.hypot(m * f.sigma_hz);
+                (l.freq_hz - m * f.fundamental_hz).abs() <= half + tol
+            })
+            .count();
+        // two oscillators a few per cent apart both show over the same harmonic numbers; the
+        // fragments of one comb lie side by side, each a short run of its own
+        let span = |h: &[(usize, u32)]| (h.first().map_or(0, |x| x.1), h.last().map_or(0, |x| x.1));
+        let (a, b) = (span(&c.hits), span(&f.hits));
+        let overlap = a.1.min(b.1).saturating_sub(a.0.max(b.0));
+        let side_by_side = 2 * overlap < a.1 - a.0;
+        2 * inside >= c.hits.len() || side_by_side
     })
 }
 
@@ -347,5 +379,70 @@ fn fit_of(
         misses,
         envelope,
         raster,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn comb(f0: f64, ns: std::ops::RangeInclusive<u32>, width_hz: f64) -> Vec<Line> {
+        ns.map(|n| Line {
+            freq_hz: f0 * f64::from(n),
+            sigma_hz: 300.0,
+            weight: 1.5,
+            strength_db: 20.0,
+            width_hz,
+        })
+        .collect()
+    }
+
+    fn candidate(f0: f64, first: usize, ns: std::ops::RangeInclusive<u32>) -> Candidate {
+        let hits: Vec<(usize, u32)> = ns.enumerate().map(|(k, n)| (first + k, n)).collect();
+        Candidate {
+            fundamental_hz: f0,
+            sigma_hz: 2.0,
+            pattern: Pattern::All,
+            hits,
+            misses: 0,
+            value: 0.0,
+            excess: 0.0,
+            reported_sigma_hz: 2.0,
+        }
+    }
+
+    /// Two converters 2.9 % apart (404.6 and 416.5 kHz), each with narrow lines over the same
+    /// harmonic numbers, are two families; a near-equal fundamental whose lines lie inside a
+    /// dithered family's wide emissions, or a short run beside the family's own, is a fragment.
+    #[test]
+    fn close_converters_are_not_fragments() {
+        let mut lines = comb(404_643.5, 2..=40, 10e3);
+        lines.extend(comb(416_492.9, 2..=40, 10e3));
+        let found = [candidate(404_643.5, 0, 2..=40)];
+        let other = candidate(416_492.9, 39, 2..=40);
+        assert!(!near_duplicate(&found, &other, &lines));
+
+        // a dithered 200 kHz family, 4 % spread: harmonic n is 8·n kHz wide
+        let mut lines: Vec<Line> = (2..=20)
+            .map(|n| Line {
+                width_hz: 8e3 * f64::from(n),
+                ..comb(200e3, n..=n, 0.0)[0]
+            })
+            .collect();
+        // the tops of its plateaus, 1 % high, taken for a fundamental of 202 kHz
+        lines.extend(comb(202e3, 2..=20, 10e3));
+        let found = [candidate(200e3, 0, 2..=20)];
+        let fragment = candidate(202e3, 19, 2..=20);
+        assert!(near_duplicate(&found, &fragment, &lines));
+
+        // a short run of near-equal spacing far above the family's own harmonics
+        let mut lines = comb(404_643.5, 2..=40, 10e3);
+        lines.extend(comb(410e3, 60..=66, 10e3));
+        let run = candidate(410e3, 39, 60..=66);
+        assert!(near_duplicate(
+            &[candidate(404_643.5, 0, 2..=40)],
+            &run,
+            &lines
+        ));
     }
 }

@@ -44,6 +44,9 @@ pub struct Candidate {
     /// Harmonic slots between the first and last hit where nothing at all shows.
     pub misses: usize,
     pub value: f64,
+    /// `value` less the gain that lines at random would give it ([`Sieve::chance_gain`]): what
+    /// candidates are ranked by.
+    pub excess: f64,
     /// Uncertainty of the fundamental from the members' scatter (reported); equals
     /// `sigma_hz` before refinement.
     pub reported_sigma_hz: f64,
@@ -154,15 +157,18 @@ impl Sieve<'_> {
         let (hits, misses) = self.alive_run(f0, pattern, &hits);
         let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
         let value = gain - self.params.miss_penalty * misses as f64;
-        Candidate {
+        let mut c = Candidate {
             fundamental_hz: f0,
             sigma_hz: sigma_f0,
             pattern,
             hits,
             misses,
             value,
+            excess: value,
             reported_sigma_hz: sigma_f0,
-        }
+        };
+        c.excess = value - self.chance_gain(&c);
+        c
     }
 
     /// Tolerance of a hit on line `l` at harmonic `n` of a fundamental `f0 ± sigma_f0`.
@@ -213,6 +219,42 @@ impl Sieve<'_> {
             })
             .collect();
         poisson_binomial_tail(&probs, c.hits.len())
+    }
+
+    /// The gain that lines at random would give a candidate over the span of its run: the sum
+    /// over the free lines there of their weight times the chance `p_i` that they fall within
+    /// tolerance of a predicted harmonic (as in [`Sieve::chance`]). A loose or low candidate
+    /// collects many hits in a dense trace by chance alone; its value over this expectation is
+    /// what the lines say for it.
+    pub fn chance_gain(&self, c: &Candidate) -> f64 {
+        let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
+            return 0.0;
+        };
+        let f0 = c.fundamental_hz;
+        let (lo, hi) = (
+            (f64::from(first.1) - 0.5) * f0,
+            (f64::from(last.1) + 0.5) * f0,
+        );
+        let share = if c.pattern == Pattern::OddOnly {
+            0.5
+        } else {
+            1.0
+        };
+        self.lines
+            .iter()
+            .enumerate()
+            .filter(|&(i, l)| {
+                self.free[i]
+                    && l.freq_hz >= lo
+                    && l.freq_hz <= hi
+                    && l.width_hz <= MAX_WIDTH_SHARE * f0
+            })
+            .map(|(_, l)| {
+                let n = (l.freq_hz / f0).round().max(1.0);
+                let p = (2.0 * self.tolerance(l, n, f0, c.sigma_hz) / f0 * share).min(1.0);
+                p * l.weight
+            })
+            .sum()
     }
 
     /// The run of harmonic slots where the family is alive: slots from the first to the last
@@ -278,16 +320,31 @@ impl Sieve<'_> {
         };
         let top = c.hits.last().map_or(lowest, |h| h.1);
         let mut reach = lowest.saturating_mul(2).max(lowest + 2);
+        let mut best = c.clone();
         while let Some(f) = self.refit(&c, reach) {
             let mut next = self.score(f.fundamental_hz, f.stated_sigma_hz, c.pattern);
             next.reported_sigma_hz = f.sigma_hz;
             c = next;
+            if c.excess > best.excess {
+                best = c.clone();
+            }
             if reach >= top.max(c.hits.last().map_or(0, |h| h.1)) {
                 break;
             }
             reach = reach.saturating_mul(2);
         }
+        // a step that lost its way (a dense trace offers a rough fit many wrong lines) does not
+        // undo a better step before it
+        let mut c = best;
         if let Some(f) = self.refit(&c, u32::MAX) {
+            let mut last = self.score(f.fundamental_hz, f.stated_sigma_hz, c.pattern);
+            last.reported_sigma_hz = f.sigma_hz;
+            if last.excess >= c.excess {
+                return last;
+            }
+            // keep the members (and the tolerance they were taken with), report their
+            // least-squares fundamental
+            c.fundamental_hz = f.fundamental_hz;
             c.reported_sigma_hz = f.sigma_hz;
         }
         c
@@ -323,7 +380,7 @@ impl Sieve<'_> {
         let mut rough: Vec<(f64, f64, Pattern, f64)> = Vec::new();
         for (f0, s) in self.candidates() {
             for pattern in [Pattern::All, Pattern::OddOnly] {
-                rough.push((f0, s, pattern, self.score(f0, s, pattern).value));
+                rough.push((f0, s, pattern, self.score(f0, s, pattern).excess));
             }
         }
         rough.sort_by(|a, b| b.3.total_cmp(&a.3));
@@ -358,12 +415,13 @@ impl Sieve<'_> {
         for k in 3..c.hits.len() {
             let (hits, misses) = self.alive_run(c.fundamental_hz, c.pattern, &c.hits[..k]);
             let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
-            let cut = Candidate {
+            let mut cut = Candidate {
                 hits,
                 misses,
                 value: gain - self.params.miss_penalty * misses as f64,
                 ..c.clone()
             };
+            cut.excess = cut.value - self.chance_gain(&cut);
             let p = self.chance(&cut);
             if best.as_ref().is_none_or(|b| p < b.0) {
                 best = Some((p, cut));
@@ -395,12 +453,12 @@ pub fn poisson_binomial_tail(probs: &[f64], h: usize) -> f64 {
     tail.clamp(0.0, 1.0)
 }
 
-/// Higher value wins; on a tie, every-harmonic beats odd-only and the higher fundamental wins
+/// Higher excess over chance wins; on a tie, every-harmonic beats odd-only and the higher fundamental wins
 /// (fewer predicted harmonics: guards against sub-multiples).
 fn better(a: &Candidate, b: &Candidate) -> bool {
     const EPS: f64 = 1e-9;
-    if (a.value - b.value).abs() > EPS {
-        return a.value > b.value;
+    if (a.excess - b.excess).abs() > EPS {
+        return a.excess > b.excess;
     }
     if a.pattern != b.pattern {
         return a.pattern == Pattern::All;
@@ -518,6 +576,51 @@ mod tests {
             }
         }
         assert!((poisson_binomial_tail(&p, 2) - want).abs() < 1e-12);
+    }
+
+    /// Lines from a 385 kHz converter (harmonics 1-30) among a dense crowd of unrelated lines
+    /// (a pseudo-random set, about one per 10 kHz over 2-8 MHz, as a trace full of other combs
+    /// shows): a low fundamental with a loose tolerance collects many crowd lines by chance and
+    /// must not outrank the converter.
+    #[test]
+    fn chance_hits_do_not_outrank_a_real_family() {
+        let mut f: Vec<f64> = (1..=30).map(|n| 385_144.0 * f64::from(n)).collect();
+        let mut x: u64 = 12345;
+        let mut g = 2.0e6;
+        while g < 8.0e6 {
+            x = x
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            g += 4e3 + (x >> 33) as f64 / f64::from(u32::MAX) * 24e3;
+            f.push(g);
+        }
+        f.sort_by(f64::total_cmp);
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 900.0;
+        }
+        let s = sieve(&l, &[]);
+        let c = s.best().unwrap();
+        assert!(
+            (c.fundamental_hz / 385_144.0 - 1.0).abs() < 1e-3,
+            "{} with {} hits",
+            c.fundamental_hz,
+            c.hits.len()
+        );
+        assert!(c.excess < c.value);
+    }
+
+    /// A refinement step that loses its way (rescored with a loose tolerance in a crowd) never
+    /// returns a candidate worse than the one it started from.
+    #[test]
+    fn refinement_keeps_its_best_step() {
+        let f: Vec<f64> = (3..=60).map(|n| 115_674.4 * f64::from(n)).collect();
+        let l = lines(&f);
+        let s = sieve(&l, &[]);
+        let start = s.score(115_674.4, 5.0, Pattern::All);
+        let refined = s.refined(115_674.4, 5.0, Pattern::All);
+        assert!(refined.excess >= start.excess - 1e-9);
+        assert!((refined.fundamental_hz / 115_674.4 - 1.0).abs() < 1e-5);
     }
 
     #[test]

@@ -476,17 +476,27 @@ fn background_at(scene: &Scene, freq_hz: f64) -> f64 {
         .map(|p| (p, false))
         .chain(scene.clock.iter().map(|p| (p, true)));
     for (p, is_clock) in sources {
-        if p.f0_hz > resolution(s, freq_hz) || freq_hz < p.f0_hz {
+        let n = (freq_hz / p.f0_hz).round().max(1.0) as u32;
+        let overlap = overlapping_harmonics(p, n);
+        if (p.f0_hz > resolution(s, freq_hz) && overlap <= 1.0) || freq_hz < p.f0_hz {
             continue;
         }
         let duty = p.duty.unwrap_or(if is_clock { 0.5 } else { 0.0 });
-        let n = (freq_hz / p.f0_hz).round().max(1.0) as u32;
-        let level = p.fundamental_dbuv + relative_db(p, duty, n, s.rbw_hz);
+        // dithered harmonics wider than the spacing overlap: their powers add
+        let level = p.fundamental_dbuv
+            + relative_db(p, duty, n, s.rbw_hz)
+            + 10.0 * overlap.max(1.0).log10();
         if level.is_finite() {
             power += 10f64.powf(level / 10.0);
         }
     }
     10.0 * power.log10()
+}
+
+/// How many dithered harmonics of `p` overlap at harmonic `n`: its width n·f0·spread over the
+/// spacing f0 (below 1 they stand apart).
+fn overlapping_harmonics(p: &Periodic, n: u32) -> f64 {
+    f64::from(n) * p.spread_pct / 100.0
 }
 
 /// Display step at `freq_hz`, Hz.
@@ -1251,12 +1261,17 @@ fn visible_lines(p: &Periodic, is_clock: bool, scene: &Scene) -> Vec<TruthLine> 
             } else {
                 floor_at(scene, freq_hz)
             };
-            (level_dbuv.is_finite() && level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(TruthLine {
-                harmonic: n,
-                freq_hz,
-                level_dbuv,
-                floor_dbuv,
-            })
+            // a dithered harmonic wider than the spacing has merged with its neighbours into a
+            // continuum: it is part of the background, not a line
+            let apart = overlapping_harmonics(p, n) <= 1.0;
+            (apart && level_dbuv.is_finite() && level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(
+                TruthLine {
+                    harmonic: n,
+                    freq_hz,
+                    level_dbuv,
+                    floor_dbuv,
+                },
+            )
         })
         .collect()
 }
