@@ -50,6 +50,7 @@ pub mod limits;
 pub mod peaks;
 pub mod report;
 pub mod scan;
+pub mod sources;
 pub mod synth;
 pub mod units;
 

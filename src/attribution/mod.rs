@@ -3,3 +3,4 @@
 pub mod kind;
 pub mod rank;
 pub mod remedies;
+pub mod sizing;
