@@ -34,6 +34,11 @@ pub struct Context {
     /// Further scans of the DUT with another RBW or detector, for the classic narrowband /
     /// broadband discrimination (the first one is used).
     pub also: Vec<Scan>,
+    /// The board's declared oscillators (`--sources`): families are matched to them.
+    pub sources: Option<crate::sources::Inventory>,
+    /// Settings of the remedy sizing (design margin and model constants); the RBW is taken
+    /// from the scan when it states one.
+    pub sizing: crate::attribution::sizing::SizingParams,
 }
 
 /// Whether a peak is narrowband (a line) or broadband (wider than the RBW allows).
@@ -119,6 +124,12 @@ pub struct Family {
     pub envelope: Option<crate::families::envelope::Envelope>,
     /// Why the kind was chosen.
     pub kind_reasons: Vec<String>,
+    /// Its harmonics over a limit: frequency and level minus limit (dB), worst limit each.
+    pub exceedances: Vec<crate::attribution::sizing::Exceedance>,
+    /// The declared source it matches (with `--sources`); `None` with an inventory: not on it.
+    pub declared_source: Option<crate::sources::SourceMatch>,
+    /// Remedies sized for its exceedances (DUT families that fail).
+    pub sized: Option<crate::attribution::sizing::SizedRemedies>,
 }
 
 impl Default for Family {
@@ -139,6 +150,9 @@ impl Default for Family {
             odd_only: false,
             envelope: None,
             kind_reasons: Vec::new(),
+            exceedances: Vec::new(),
+            declared_source: None,
+            sized: None,
         }
     }
 }
@@ -191,6 +205,8 @@ pub struct Analysis {
     pub floor: FloorSummary,
     pub verdict: Verdict,
     pub warnings: Vec<Warning>,
+    /// How the families met the declared sources, when an inventory was given.
+    pub inventory: Option<crate::attribution::plan::InventoryUse>,
 }
 
 /// What the floor stage measured.
@@ -279,7 +295,17 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         discriminate_peaks(&mut peaks, &found, &dut, also);
         !peaks.is_empty() && peaks.iter().all(|p| p.discrimination.is_none())
     });
-    let families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
+    let mut families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
+    let inventory = ctx
+        .sources
+        .as_ref()
+        .map(|inv| attribution::plan::declare(&mut families, inv));
+    let conducted = is_conducted(&dut);
+    let mut sizing = ctx.sizing;
+    if let Some(rbw) = dut.meta.rbw_hz.filter(|r| *r > 0.0) {
+        sizing.rbw_hz = rbw;
+    }
+    attribution::plan::size(&mut families, ctx.sources.as_ref(), conducted, &sizing)?;
     let mut humps = explain_humps(humps, &peaks, &dut);
     let mut warnings = Vec::new();
     if let Some(h) = steady_background(&dut, &floor) {
@@ -312,6 +338,7 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         floor,
         verdict,
         warnings,
+        inventory,
     })
 }
 
@@ -437,6 +464,11 @@ fn build_peaks(
 
 /// Families from the fits: origin from their members, kind from the evidence, margins over
 /// every limit, remedies; then ranked. Marks each member peak with its family.
+/// A voltage scan that ends by 30 MHz is a conducted (LISN) scan.
+fn is_conducted(dut: &Scan) -> bool {
+    dut.meta.quantity == Quantity::Voltage && dut.span_hz().1 <= 30e6 * 1.001
+}
+
 fn build_families(
     fits: &[FamilyFit],
     peaks: &mut [Peak],
@@ -444,7 +476,7 @@ fn build_families(
     dut: &Scan,
     no_ambient: bool,
 ) -> Vec<Family> {
-    let conducted = dut.meta.quantity == Quantity::Voltage && dut.span_hz().1 <= 30e6 * 1.001;
+    let conducted = is_conducted(dut);
     let mut out: Vec<Family> = Vec::with_capacity(fits.len());
     for (k, fit) in fits.iter().enumerate() {
         let id = k + 1;
@@ -504,6 +536,18 @@ fn build_families(
             odd_only: fit.pattern == Pattern::OddOnly,
             envelope: Some(fit.envelope.clone()),
             kind_reasons,
+            exceedances: margins
+                .iter()
+                .filter_map(|&(freq_hz, m)| {
+                    m.filter(|x| *x < 0.0)
+                        .map(|x| attribution::sizing::Exceedance {
+                            freq_hz,
+                            over_db: -x,
+                        })
+                })
+                .collect(),
+            declared_source: None,
+            sized: None,
         });
     }
     attribution::rank::rank(&mut out);

@@ -73,4 +73,8 @@ pub enum Error {
     Render(#[from] report::RenderError),
     #[error(transparent)]
     Settings(#[from] analysis::SettingsError),
+    #[error(transparent)]
+    Sources(#[from] sources::SourceError),
+    #[error(transparent)]
+    Sizing(#[from] attribution::sizing::SizingError),
 }

@@ -131,3 +131,29 @@ fn missing_file() {
         stderr(&out)
     );
 }
+
+/// An inventory with a misspelt key is refused with the key, the line and the allowed keys.
+#[test]
+fn inventory_with_an_unknown_key_names_it() {
+    let dir = std::env::temp_dir().join("spurhound-bad-inventory");
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join("board.toml");
+    std::fs::write(
+        &path,
+        "[[source]]\nname = \"buck\"\nkind = \"switching\"\nfrequency_hz = 4e5\nfrequncy_tol = 3\n",
+    )
+    .unwrap();
+    let out = spurhound(&[
+        "analyze",
+        "fixtures/scans/small-fail.csv",
+        "--sources",
+        path.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = stderr(&out);
+    assert!(
+        err.contains("frequncy_tol") && err.contains("board.toml:5:"),
+        "{err}"
+    );
+    assert!(err.contains("tolerance_pct"), "{err}");
+}

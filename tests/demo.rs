@@ -114,3 +114,49 @@ fn demo_ranks_the_failing_flyback_first_and_marks_the_ambient() {
         .count();
     assert!(ambient_peaks >= 3, "{ambient_peaks}");
 }
+
+/// With the demo board's inventory (fixtures/sources/demo-board.toml, the designer's own
+/// declaration of the scene's oscillators) every converter family names its declared source.
+#[test]
+fn demo_inventory_names_the_declared_source_of_each_family() {
+    let mut args = DEMO.to_vec();
+    args.extend_from_slice(&[
+        "--sources",
+        "fixtures/sources/demo-board.toml",
+        "--format",
+        "json",
+    ]);
+    let out = spurhound(&args);
+    let doc: serde_json::Value = serde_json::from_str(&stdout(&out)).unwrap();
+    let families = doc["families"].as_array().unwrap();
+    // source: scene demo-board.toml (65 kHz flyback, 400 kHz and 1.15 MHz bucks)
+    for (f0, name) in [(65e3, "flyback"), (400e3, "buck-5v"), (1.15e6, "buck-3v3")] {
+        let fam = families
+            .iter()
+            .find(|f| (f["fundamental_hz"].as_f64().unwrap() / f0 - 1.0).abs() < 0.01)
+            .unwrap_or_else(|| panic!("no family near {f0} Hz"));
+        assert_eq!(fam["declared_source"], name, "{fam}");
+    }
+    // the ambient's broadcast set is not the board's
+    for f in families.iter().filter(|f| f["kind"] == "broadcast") {
+        assert!(f["declared_source"].is_null());
+    }
+    // the failing flyback gets sized remedies with their needs (exceedance + 6 dB margin)
+    let fly = families
+        .iter()
+        .find(|f| f["declared_source"] == "flyback")
+        .unwrap();
+    let sized = &fly["sized_remedies"];
+    assert!(
+        sized["lc_filter"]["inductance_h"].as_f64().unwrap() > 0.0,
+        "{sized}"
+    );
+    let over = fly["exceedances"][0]["over_db"].as_f64().unwrap();
+    let needs = sized["needs"].as_array().unwrap();
+    assert!(
+        needs
+            .iter()
+            .any(|n| (n["needed_db"].as_f64().unwrap() - over - 6.0).abs() < 1e-9)
+    );
+    assert!(doc["inventory"]["unused_sources"].is_array());
+}

@@ -71,9 +71,14 @@ pub struct AnalyzeArgs {
     /// told apart by how each peak changes.
     #[arg(long, value_name = "FILE")]
     pub also: Vec<PathBuf>,
-    /// The board's oscillator inventory (TOML).
+    /// The board's oscillator inventory (TOML, one `[[source]]` table per oscillator):
+    /// families are matched to the declared sources, and their edges, duty and spread size the
+    /// remedies.
     #[arg(long, value_name = "FILE")]
     pub sources: Option<PathBuf>,
+    /// Attenuation asked beyond each exceedance when sizing remedies, dB.
+    #[arg(long, value_name = "DB", default_value_t = spurhound::attribution::sizing::DESIGN_MARGIN_DB)]
+    pub margin_db: f64,
     #[command(flatten)]
     pub read: ReadArgs,
     /// Report format.

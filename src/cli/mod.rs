@@ -207,23 +207,22 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
         .iter()
         .map(|p| Transducer::read_file(p))
         .collect::<Result<Vec<_>, _>>()?;
-    if let Some(src) = &a.sources {
-        if !src.exists() {
-            return Err(CliError(format!(
-                "{}: cannot read the source inventory: no such file",
-                src.display()
-            )));
-        }
-        eprintln!(
-            "spurhound: note: the source inventory {} is not used by this version yet",
-            src.display()
-        );
-    }
+    let sources = a
+        .sources
+        .as_deref()
+        .map(spurhound::sources::read_inventory_file)
+        .transpose()?;
+    let sizing = spurhound::attribution::sizing::SizingParams {
+        design_margin_db: a.margin_db,
+        ..Default::default()
+    };
     let ctx = Context {
         limits,
         ambient,
         transducers: TransducerChain { items },
         also,
+        sources,
+        sizing,
     };
     let analysis = analyze(&dut, &ctx)?;
     let format = match a.format {

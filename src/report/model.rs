@@ -27,6 +27,9 @@ pub struct Document<'a> {
     pub ambient: Vec<AmbientDoc>,
     pub verdict: VerdictDoc,
     pub warnings: &'a [Warning],
+    /// How the families met the declared sources (`--sources`); absent without an inventory.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub inventory: Option<&'a crate::attribution::plan::InventoryUse>,
 }
 
 #[derive(Debug, Serialize)]
@@ -95,6 +98,14 @@ pub struct FamilyDoc<'a> {
     pub odd_only: bool,
     pub envelope: Option<&'a crate::families::envelope::Envelope>,
     pub kind_reasons: &'a [String],
+    /// Name of the declared source it matches; null when none does or no inventory was given.
+    pub declared_source: Option<&'a str>,
+    /// The match itself (likelihood ratio, offset from nominal, within tolerance).
+    pub declared_match: Option<&'a crate::sources::SourceMatch>,
+    /// Its harmonics over a limit (frequency, dB over).
+    pub exceedances: &'a [crate::attribution::sizing::Exceedance],
+    /// Remedies sized for the exceedances, each with its model and assumptions.
+    pub sized_remedies: Option<&'a crate::attribution::sizing::SizedRemedies>,
 }
 
 #[derive(Debug, Serialize)]
@@ -155,6 +166,10 @@ fn family_doc(f: &Family) -> FamilyDoc<'_> {
         odd_only: f.odd_only,
         envelope: f.envelope.as_ref(),
         kind_reasons: &f.kind_reasons,
+        declared_source: f.declared_source.as_ref().map(|m| m.source.as_str()),
+        declared_match: f.declared_source.as_ref(),
+        exceedances: &f.exceedances,
+        sized_remedies: f.sized.as_ref(),
     }
 }
 
@@ -227,6 +242,7 @@ pub fn document(a: &Analysis) -> Document<'_> {
             worst_limit: a.verdict.worst_limit.clone(),
         },
         warnings: &a.warnings,
+        inventory: a.inventory.as_ref(),
     }
 }
 

@@ -227,15 +227,60 @@ fn culprits_section(a: &Analysis, out: &mut String) {
         if f.points_over > 0 {
             notes.push(format!("{} harmonic(s) over a limit", f.points_over));
         }
+        if let Some(m) = &f.declared_source {
+            let off = if m.offset_pct.abs() >= 0.1 {
+                format!("{:+.2} %", m.offset_pct)
+            } else {
+                format!("{:+.0} ppm", m.offset_ppm)
+            };
+            let within = if m.within_tolerance {
+                "within its tolerance"
+            } else {
+                "outside its declared tolerance"
+            };
+            notes.push(format!(
+                "declared source: {} ({off} from nominal, {within})",
+                m.source
+            ));
+        } else if a.inventory.is_some()
+            && f.origin != crate::analysis::Origin::Ambient
+            && f.kind != crate::analysis::Kind::Broadcast
+        {
+            notes.push("not on the inventory: a missing or misbehaving oscillator".to_string());
+        }
         if !notes.is_empty() {
             wrap_into(out, &notes.join("; "), "     ", "     ");
         }
         if let Some(r) = f.remedies.first() {
             wrap_into(out, r, "     fix: ", "          ");
         }
+        if f.rank <= MAX_SIZED_FAMILIES {
+            let sized = crate::attribution::plan::sized_sentences(f.sized.as_ref());
+            for s in sized.iter().take(MAX_SIZED_SENTENCES) {
+                wrap_into(out, s, "     size: ", "           ");
+            }
+        }
+    }
+    if let Some(inv) = &a.inventory {
+        if !inv.unused_sources.is_empty() {
+            wrap_into(
+                out,
+                &format!(
+                    "declared but not seen: {} (off, quiet under the floor, or off its declared frequency)",
+                    inv.unused_sources.join(", ")
+                ),
+                "  ",
+                "  ",
+            );
+        }
     }
     out.push('\n');
 }
+
+/// Families whose sized remedies the text report shows (by rank); the JSON has them all.
+const MAX_SIZED_FAMILIES: usize = 3;
+/// Sized remedies shown per family, most direct first.
+const MAX_SIZED_SENTENCES: usize = 3;
 
 /// Most peaks listed; the JSON and CSV have them all.
 const MAX_PEAKS: usize = 15;
