@@ -43,6 +43,7 @@ pub mod ambient;
 pub mod analysis;
 pub mod attribution;
 pub mod bandwidth;
+pub mod compare;
 pub mod correct;
 pub mod families;
 pub mod floor;

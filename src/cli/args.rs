@@ -25,6 +25,9 @@ pub struct Cli {
 pub enum Command {
     /// Analyse a scan: corrections, margins to limits, verdict.
     Analyze(AnalyzeArgs),
+    /// Compare scans of one board before and after a change: which families and failing
+    /// frequencies improved.
+    Compare(CompareArgs),
     /// List the built-in limits, or show one (table and source).
     Limits(LimitsArgs),
     /// Render an analyzer trace from a scene file of declared sources.
@@ -90,6 +93,34 @@ pub struct AnalyzeArgs {
     /// Also draw the scan, ambient and limits as an SVG plot.
     #[arg(long, value_name = "FILE.svg")]
     pub plot: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// The scan before the change, then the scan(s) after it, in order (a fix story: each scan
+    /// is compared with the one before it, and the last with the first).
+    #[arg(required = true, num_args = 2.., value_name = "SCAN")]
+    pub scans: Vec<PathBuf>,
+    /// An ambient scan taken with the DUT off (used for every scan); repeatable.
+    #[arg(long, value_name = "FILE")]
+    pub ambient: Vec<PathBuf>,
+    /// A built-in limit name (see `spurhound limits`) or a limit file; repeatable.
+    #[arg(long, value_name = "NAME|FILE")]
+    pub limit: Vec<String>,
+    /// A correction table added to every reading; repeatable, applied in order.
+    #[arg(long, value_name = "FILE")]
+    pub transducer: Vec<PathBuf>,
+    /// Set-up repeatability of one reading, dB (changes are judged against it).
+    #[arg(long, value_name = "DB", default_value_t = spurhound::compare::SETUP_REPEAT_DB)]
+    pub repeat_db: f64,
+    #[command(flatten)]
+    pub read: ReadArgs,
+    /// Report format (csv is not offered: the JSON has every table).
+    #[arg(long, value_enum, default_value_t = FormatArg::Text)]
+    pub format: FormatArg,
+    /// Write the report to this file instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<PathBuf>,
 }
 
 #[derive(Debug, Args)]

@@ -3,12 +3,13 @@
 mod args;
 
 use args::{
-    AnalyzeArgs, Cli, Command, DetectorArg, FormatArg, FreqUnitArg, LevelUnitArg, LimitsArgs,
-    ReadArgs, SynthArgs,
+    AnalyzeArgs, Cli, Command, CompareArgs, DetectorArg, FormatArg, FreqUnitArg, LevelUnitArg,
+    LimitsArgs, ReadArgs, SynthArgs,
 };
 use clap::Parser;
 use spurhound::analysis::fmt_hz;
 use spurhound::correct::{Transducer, TransducerChain};
+use spurhound::report::compare::Step;
 use spurhound::report::{self, Format};
 use spurhound::scan::{self, Detector, ReadOptions, Role};
 use spurhound::units::{FreqUnit, LevelUnit};
@@ -66,6 +67,7 @@ pub fn run() -> ExitCode {
     let cli = Cli::parse();
     let result = match &cli.command {
         Command::Analyze(a) => run_analyze(a, cli.verbose),
+        Command::Compare(c) => run_compare(c, cli.verbose),
         Command::Limits(l) => run_limits(l),
         Command::Synth(s) => run_synth(s, cli.verbose),
     };
@@ -242,6 +244,81 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
             .map_err(|e| CliError(format!("{}: cannot write the plot: {e}", path.display())))?;
     }
     Ok(if analysis.verdict.pass == Some(false) {
+        FAIL
+    } else {
+        PASS
+    })
+}
+
+fn run_compare(c: &CompareArgs, verbose: bool) -> Result<u8, CliError> {
+    if !(c.repeat_db.is_finite() && c.repeat_db > 0.0) {
+        return Err(CliError(format!(
+            "--repeat-db {}: expected a positive number of dB",
+            c.repeat_db
+        )));
+    }
+    if matches!(c.format, FormatArg::Csv) {
+        return Err(CliError(
+            "compare writes text or json (--format csv is for analyze's peak table)".into(),
+        ));
+    }
+    let opts = read_options(&c.read)?;
+    let ambient_opts = ReadOptions {
+        role: Some(Role::Ambient),
+        ..opts.clone()
+    };
+    let (first, ambient) = read_scans(&c.scans[0], &c.ambient, &opts, &ambient_opts, verbose)?;
+    let mut scans = vec![first];
+    for p in &c.scans[1..] {
+        scans.push(report_reading(p, scan::read_scan_file(p, &opts)?, verbose));
+    }
+    let limits = c
+        .limit
+        .iter()
+        .map(|l| limits::resolve(l))
+        .collect::<Result<Vec<_>, _>>()?;
+    let items = c
+        .transducer
+        .iter()
+        .map(|p| Transducer::read_file(p))
+        .collect::<Result<Vec<_>, _>>()?;
+    let ctx = Context {
+        limits,
+        ambient,
+        transducers: TransducerChain { items },
+        ..Context::default()
+    };
+    let analyses = scans
+        .iter()
+        .map(|s| analyze(s, &ctx))
+        .collect::<Result<Vec<_>, _>>()?;
+    let params = spurhound::compare::CompareParams {
+        setup_repeat_db: c.repeat_db,
+    };
+    let name = |i: usize| c.scans[i].display().to_string();
+    let steps: Vec<Step> = (1..analyses.len())
+        .map(|i| Step {
+            before: name(i - 1),
+            after: name(i),
+            comparison: spurhound::compare::compare(&analyses[i - 1], &analyses[i], &params),
+        })
+        .collect();
+    let last = analyses.len() - 1;
+    let overall = Step {
+        before: name(0),
+        after: name(last),
+        comparison: spurhound::compare::compare(&analyses[0], &analyses[last], &params),
+    };
+    let text = match c.format {
+        FormatArg::Json => report::compare::render_json(&overall, &steps)?,
+        _ => report::compare::render_text(&overall, &steps),
+    };
+    match &c.out {
+        Some(path) => std::fs::write(path, text)
+            .map_err(|e| CliError(format!("{}: cannot write the report: {e}", path.display())))?,
+        None => emit(&text),
+    }
+    Ok(if overall.comparison.pass == Some(false) {
         FAIL
     } else {
         PASS

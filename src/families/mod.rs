@@ -182,10 +182,11 @@ pub fn find_families(
             break;
         }
         drop_intruders(&mut c.hits, &widths);
+        drop_bright_intruders(&mut c.hits, peaks);
         for &(i, _) in &c.hits {
             sieve.free[i] = false;
         }
-        if !absorb(&mut found, &c, &lines) && !near_duplicate(&found, &c, &lines) {
+        if !absorb(&mut found, &c, &lines, peaks) && !near_duplicate(&found, &c, &lines) {
             found.push(c);
         }
     }
@@ -277,7 +278,7 @@ const ABSORB_SHARE: f64 = 0.8;
 /// Gives the lines of `c` to an earlier family when at least [`ABSORB_SHARE`] of them lie on its
 /// harmonics (within three uncertainties); returns whether it did. A comb's far harmonics
 /// otherwise come back as a family at a multiple of its fundamental.
-fn absorb(found: &mut [Candidate], c: &Candidate, lines: &[Line]) -> bool {
+fn absorb(found: &mut [Candidate], c: &Candidate, lines: &[Line], peaks: &[FoundPeak]) -> bool {
     for fam in found.iter_mut() {
         let f0 = fam.fundamental_hz;
         let on: Vec<(usize, u32)> = c
@@ -291,10 +292,19 @@ fn absorb(found: &mut [Candidate], c: &Candidate, lines: &[Line]) -> bool {
                 (n >= 1.0 && odd_ok && (l.freq_hz - n * f0).abs() <= tol).then_some((i, n as u32))
             })
             .collect();
-        if on.len() as f64 >= ABSORB_SHARE * c.hits.len() as f64 {
-            fam.hits.extend(on);
-            fam.hits.sort_by_key(|h| h.1);
-            fam.hits.dedup_by_key(|h| h.1);
+        if (on.len() as f64) < ABSORB_SHARE * c.hits.len() as f64 {
+            continue;
+        }
+        let mut merged = fam.hits.clone();
+        merged.extend(on.iter().copied());
+        merged.sort_by_key(|h| h.1);
+        merged.dedup_by_key(|h| h.1);
+        drop_bright_intruders(&mut merged, peaks);
+        // lines far brighter than the family's own harmonics around them are another
+        // oscillator's (a clock on a converter's harmonics), not its far harmonics
+        let kept = on.iter().filter(|h| merged.contains(h)).count();
+        if kept as f64 >= ABSORB_SHARE * c.hits.len() as f64 {
+            fam.hits = merged;
             return true;
         }
     }
@@ -312,6 +322,40 @@ fn drop_intruders(hits: &mut Vec<(usize, u32)>, widths: &[f64]) {
     }
     let median = crate::floor::quantile_in_place(&mut w, 0.5);
     hits.retain(|&(i, _)| widths[i] <= 4.0 * median);
+}
+
+/// A member this far above its neighbours is another source's line on that harmonic, dB.
+const BRIGHT_INTRUDER_DB: f64 = 10.0;
+
+/// A member standing more than [`BRIGHT_INTRUDER_DB`] above the median level of its six nearest
+/// fellow members (three on each side) is another oscillator's line that happens to sit on this
+/// family's harmonic (a clock at 4 MHz on a 100 kHz converter's 40th harmonic): a trapezoid's
+/// harmonics change by a dB or two from one to the next, and a sinc null only lowers one. Its
+/// line is left free for the family that made it. Only for families of at least eight members,
+/// from the fourth member on (the first harmonics of a trapezoid fall fastest).
+fn drop_bright_intruders(hits: &mut Vec<(usize, u32)>, peaks: &[FoundPeak]) {
+    const NEAREST: usize = 3;
+    if hits.len() < 8 {
+        return;
+    }
+    let levels: Vec<f64> = hits.iter().map(|&(i, _)| peaks[i].level_dbuv).collect();
+    let keep: Vec<bool> = (0..hits.len())
+        .map(|k| {
+            if k < 3 {
+                return true;
+            }
+            let lo = k.saturating_sub(NEAREST);
+            let hi = (k + NEAREST + 1).min(hits.len());
+            let mut around: Vec<f64> = (lo..hi).filter(|&j| j != k).map(|j| levels[j]).collect();
+            let reference = crate::floor::quantile_in_place(&mut around, 0.5);
+            levels[k] - reference <= BRIGHT_INTRUDER_DB
+        })
+        .collect();
+    let mut k = 0;
+    hits.retain(|_| {
+        k += 1;
+        keep[k - 1]
+    });
 }
 
 fn broadcast(
@@ -409,6 +453,42 @@ mod tests {
             excess: 0.0,
             reported_sigma_hz: 2.0,
         }
+    }
+
+    fn peak(freq_hz: f64, level_dbuv: f64) -> FoundPeak {
+        FoundPeak {
+            index: 0,
+            freq_hz,
+            level_dbuv,
+            prominence_db: 10.0,
+            left_base: 0,
+            right_base: 0,
+            left_hz: freq_hz - 5e3,
+            right_hz: freq_hz + 5e3,
+            width_hz: 10e3,
+            significance_db: 10.0,
+            over_floor_db: 20.0,
+        }
+    }
+
+    /// A 100 kHz converter falling at 20 dB/decade (the trapezoid envelope between its break
+    /// points, METHODS.md §5) with a 4 MHz clock line 20 dB over its 40th harmonic: the clock's
+    /// line leaves the family; a sinc null (one member 15 dB low) and the steep first harmonics
+    /// do not make intruders.
+    #[test]
+    fn a_bright_line_on_a_harmonic_is_another_source() {
+        let mut peaks: Vec<FoundPeak> = (2..=60u32)
+            .map(|n| peak(1e5 * f64::from(n), 80.0 - 20.0 * f64::from(n).log10()))
+            .collect();
+        let at = |n: u32| (n - 2) as usize;
+        peaks[at(40)].level_dbuv += 20.0;
+        peaks[at(25)].level_dbuv -= 15.0;
+        peaks[at(2)].level_dbuv += 9.0;
+        let mut hits: Vec<(usize, u32)> = (2..=60u32).map(|n| (at(n), n)).collect();
+        drop_bright_intruders(&mut hits, &peaks);
+        assert_eq!(hits.len(), 58);
+        assert!(!hits.iter().any(|h| h.1 == 40));
+        assert!(hits.iter().any(|h| h.1 == 25) && hits.iter().any(|h| h.1 == 2));
     }
 
     /// Two converters 2.9 % apart (404.6 and 416.5 kHz), each with narrow lines over the same

@@ -2,6 +2,7 @@
 //! `spurhound.analysis/1` contract, CSV of the peak table, and an SVG plot.
 //! The library returns the rendered text; only the CLI writes files or prints.
 
+pub mod compare;
 pub mod csv;
 pub mod model;
 pub mod svg;
