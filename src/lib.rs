@@ -44,6 +44,7 @@ pub mod analysis;
 pub mod attribution;
 pub mod bandwidth;
 pub mod correct;
+pub mod detectors;
 pub mod families;
 pub mod floor;
 pub mod limits;
