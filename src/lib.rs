@@ -45,6 +45,7 @@ pub mod attribution;
 pub mod bandwidth;
 pub mod compare;
 pub mod correct;
+pub mod detectors;
 pub mod families;
 pub mod floor;
 pub mod limits;
