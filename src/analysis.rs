@@ -97,6 +97,8 @@ pub struct Peak {
     pub point: usize,
     /// What a scan given with `--also` says, when one was given.
     pub discrimination: Option<bandwidth::Discrimination>,
+    /// Predicted (or measured) quasi-peak and average readings and their margins.
+    pub prediction: Option<crate::prediction::PeakPrediction>,
 }
 
 /// A harmonic family: one oscillator's lines.
@@ -130,6 +132,8 @@ pub struct Family {
     pub declared_source: Option<crate::sources::SourceMatch>,
     /// Remedies sized for its exceedances (DUT families that fail).
     pub sized: Option<crate::attribution::sizing::SizedRemedies>,
+    /// The prediction of its member with the smallest predicted QP/AV margin.
+    pub predicted_worst: Option<crate::prediction::PeakPrediction>,
 }
 
 impl Default for Family {
@@ -153,6 +157,7 @@ impl Default for Family {
             exceedances: Vec::new(),
             declared_source: None,
             sized: None,
+            predicted_worst: None,
         }
     }
 }
@@ -207,6 +212,8 @@ pub struct Analysis {
     pub warnings: Vec<Warning>,
     /// How the families met the declared sources, when an inventory was given.
     pub inventory: Option<crate::attribution::plan::InventoryUse>,
+    /// Predicted QP/AV verdict, the re-measure list and checks against measured QP/AV scans.
+    pub detectors: crate::prediction::Detectors,
 }
 
 /// What the floor stage measured.
@@ -307,6 +314,20 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
     }
     attribution::plan::size(&mut families, ctx.sources.as_ref(), conducted, &sizing)?;
     let mut humps = explain_humps(humps, &peaks, &dut);
+    let also_all = ctx
+        .also
+        .iter()
+        .map(|s| ctx.transducers.apply(s))
+        .collect::<Result<Vec<_>, _>>()?;
+    let detectors = crate::prediction::predict_peaks(
+        &dut,
+        &mut peaks,
+        &mut families,
+        &humps,
+        &limits,
+        &also_all,
+        ctx.sources.as_ref(),
+    );
     let mut warnings = Vec::new();
     if let Some(h) = steady_background(&dut, &floor) {
         warnings.push(Warning {
@@ -339,6 +360,7 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         verdict,
         warnings,
         inventory,
+        detectors,
     })
 }
 
@@ -457,18 +479,19 @@ fn build_peaks(
                 ambient_dbuv: evidence[k].ambient_dbuv,
                 point: p.index,
                 discrimination: None,
+                prediction: None,
             }
         })
         .collect()
 }
 
-/// Families from the fits: origin from their members, kind from the evidence, margins over
-/// every limit, remedies; then ranked. Marks each member peak with its family.
 /// A voltage scan that ends by 30 MHz is a conducted (LISN) scan.
 fn is_conducted(dut: &Scan) -> bool {
     dut.meta.quantity == Quantity::Voltage && dut.span_hz().1 <= 30e6 * 1.001
 }
 
+/// Families from the fits: origin from their members, kind from the evidence, margins over
+/// every limit, remedies; then ranked. Marks each member peak with its family.
 fn build_families(
     fits: &[FamilyFit],
     peaks: &mut [Peak],
@@ -548,6 +571,7 @@ fn build_families(
                 .collect(),
             declared_source: None,
             sized: None,
+            predicted_worst: None,
         });
     }
     attribution::rank::rank(&mut out);

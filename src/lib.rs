@@ -50,6 +50,7 @@ pub mod families;
 pub mod floor;
 pub mod limits;
 pub mod peaks;
+pub mod prediction;
 pub mod report;
 pub mod scan;
 pub mod sources;

@@ -145,7 +145,10 @@ pub struct SynthArgs {
 pub enum FormatArg {
     Text,
     Json,
+    /// The peak table (with predicted QP/AV and a re-measure flag), for a spreadsheet.
     Csv,
+    /// The re-measure list as CSV, for a measurement script (analyze only).
+    Remeasure,
 }
 
 #[derive(Debug, Clone, Copy, ValueEnum)]

@@ -231,6 +231,7 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
         FormatArg::Text => Format::Text,
         FormatArg::Json => Format::Json,
         FormatArg::Csv => Format::Csv,
+        FormatArg::Remeasure => Format::Remeasure,
     };
     let text = report::render(&analysis, format)?;
     match &a.out {
@@ -257,9 +258,9 @@ fn run_compare(c: &CompareArgs, verbose: bool) -> Result<u8, CliError> {
             c.repeat_db
         )));
     }
-    if matches!(c.format, FormatArg::Csv) {
+    if matches!(c.format, FormatArg::Csv | FormatArg::Remeasure) {
         return Err(CliError(
-            "compare writes text or json (--format csv is for analyze's peak table)".into(),
+            "compare writes text or json (--format csv and remeasure are analyze's tables)".into(),
         ));
     }
     let opts = read_options(&c.read)?;

@@ -12,7 +12,7 @@ const METER_SETTLING_PER_T: f64 = 6.638_352_067_993_815;
 
 /// Shortest dwell for a signal of unknown repetition, s (METHODS.md §9: QP dwell ≥ 1 s per
 /// frequency for unknown signals, source S7).
-const UNKNOWN_SIGNAL_DWELL_S: f64 = 1.0;
+pub const UNKNOWN_SIGNAL_DWELL_S: f64 = 1.0;
 
 /// Periods of the slowest repetition a dwell must hold (common practice: one period to catch
 /// the event, one more for the meter to show its maximum).

@@ -38,7 +38,8 @@ mod table_data;
 
 pub use band::{Band, GAUSSIAN_IMPULSE_PER_6DB};
 pub use dwell::{
-    SweepPlan, SweepSegment, dwell_s, meter_settling_s, plan_sweep, qp_settling_s, sweep_points,
+    SweepPlan, SweepSegment, UNKNOWN_SIGNAL_DWELL_S, dwell_s, meter_settling_s, plan_sweep,
+    qp_settling_s, sweep_points,
 };
 pub use model::{ModelSettings, Readings, simulate, simulate_dwell};
 pub use predict::{Basis, Evidence, Prediction, predict};

@@ -16,6 +16,8 @@ pub enum Format {
     Text,
     Json,
     Csv,
+    /// The re-measure list as CSV.
+    Remeasure,
 }
 
 /// One renderer per format.
@@ -36,6 +38,7 @@ pub fn render(analysis: &Analysis, format: Format) -> Result<String, RenderError
         Format::Text => text::TextReport.render(analysis),
         Format::Json => model::JsonReport.render(analysis),
         Format::Csv => csv::PeakTable.render(analysis),
+        Format::Remeasure => csv::RemeasureTable.render(analysis),
     }
 }
 

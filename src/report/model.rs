@@ -20,7 +20,7 @@ pub struct Document<'a> {
     pub scan: ScanDoc,
     pub limit: Option<LimitRef>,
     pub limits: Vec<LimitDoc>,
-    pub peaks: Vec<PeakDoc>,
+    pub peaks: Vec<PeakDoc<'a>>,
     pub families: Vec<FamilyDoc<'a>>,
     pub humps: &'a [crate::bandwidth::Hump],
     pub floor: crate::analysis::FloorSummary,
@@ -30,6 +30,11 @@ pub struct Document<'a> {
     /// How the families met the declared sources (`--sources`); absent without an inventory.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub inventory: Option<&'a crate::attribution::plan::InventoryUse>,
+    /// Frequencies to measure again with the quasi-peak and average detectors, and the time
+    /// that saves against a full slow sweep.
+    pub remeasure: &'a crate::prediction::RemeasurePlan,
+    /// How far the predictions were from QP/AV scans given with `--also`.
+    pub detector_checks: &'a [crate::prediction::DetectorCheck],
 }
 
 #[derive(Debug, Serialize)]
@@ -65,7 +70,7 @@ pub struct LimitDoc {
 }
 
 #[derive(Debug, Serialize)]
-pub struct PeakDoc {
+pub struct PeakDoc<'a> {
     pub freq_hz: f64,
     pub level_dbuv: f64,
     pub limit_dbuv: Option<f64>,
@@ -79,6 +84,13 @@ pub struct PeakDoc {
     pub significance_db: f64,
     pub ambient_dbuv: Option<f64>,
     pub discrimination: Option<crate::bandwidth::Discrimination>,
+    /// Predicted quasi-peak and average readings (a measured QP/AV scan's reading wins in the
+    /// margins), and the margins to the first QP and AV limits given (null without one).
+    pub predicted_qp_dbuv: Option<f64>,
+    pub predicted_av_dbuv: Option<f64>,
+    pub qp_margin_db: Option<f64>,
+    pub av_margin_db: Option<f64>,
+    pub prediction: Option<&'a crate::prediction::PeakPrediction>,
 }
 
 #[derive(Debug, Serialize)]
@@ -106,6 +118,12 @@ pub struct FamilyDoc<'a> {
     pub exceedances: &'a [crate::attribution::sizing::Exceedance],
     /// Remedies sized for the exceedances, each with its model and assumptions.
     pub sized_remedies: Option<&'a crate::attribution::sizing::SizedRemedies>,
+    /// The same four fields as a peak's, for the family's member with the smallest predicted
+    /// margin.
+    pub predicted_qp_dbuv: Option<f64>,
+    pub predicted_av_dbuv: Option<f64>,
+    pub qp_margin_db: Option<f64>,
+    pub av_margin_db: Option<f64>,
 }
 
 #[derive(Debug, Serialize)]
@@ -129,9 +147,11 @@ pub struct VerdictDoc {
     pub worst_margin_db: Option<f64>,
     pub worst_freq_hz: Option<f64>,
     pub worst_limit: Option<String>,
+    /// Verdict of the predicted QP/AV levels against the QP/AV limits given (null without one).
+    pub predicted_pass: Option<bool>,
 }
 
-fn peak_doc(p: &Peak) -> PeakDoc {
+fn peak_doc(p: &Peak) -> PeakDoc<'_> {
     PeakDoc {
         freq_hz: p.freq_hz,
         level_dbuv: p.level_dbuv,
@@ -146,6 +166,11 @@ fn peak_doc(p: &Peak) -> PeakDoc {
         significance_db: p.significance_db,
         ambient_dbuv: p.ambient_dbuv,
         discrimination: p.discrimination,
+        predicted_qp_dbuv: p.prediction.map(|x| x.qp_dbuv),
+        predicted_av_dbuv: p.prediction.map(|x| x.av_dbuv),
+        qp_margin_db: p.prediction.and_then(|x| x.qp_margin_db),
+        av_margin_db: p.prediction.and_then(|x| x.av_margin_db),
+        prediction: p.prediction.as_ref(),
     }
 }
 
@@ -170,6 +195,10 @@ fn family_doc(f: &Family) -> FamilyDoc<'_> {
         declared_match: f.declared_source.as_ref(),
         exceedances: &f.exceedances,
         sized_remedies: f.sized.as_ref(),
+        predicted_qp_dbuv: f.predicted_worst.map(|x| x.qp_dbuv),
+        predicted_av_dbuv: f.predicted_worst.map(|x| x.av_dbuv),
+        qp_margin_db: f.predicted_worst.and_then(|x| x.qp_margin_db),
+        av_margin_db: f.predicted_worst.and_then(|x| x.av_margin_db),
     }
 }
 
@@ -240,9 +269,12 @@ pub fn document(a: &Analysis) -> Document<'_> {
             worst_margin_db: a.verdict.worst_margin_db,
             worst_freq_hz: a.verdict.worst_freq_hz,
             worst_limit: a.verdict.worst_limit.clone(),
+            predicted_pass: a.detectors.predicted_pass,
         },
         warnings: &a.warnings,
         inventory: a.inventory.as_ref(),
+        remeasure: &a.detectors.remeasure,
+        detector_checks: &a.detectors.checks,
     }
 }
 

@@ -24,6 +24,7 @@ impl Renderer for TextReport {
         culprits_section(a, &mut out);
         peaks_section(a, &mut out);
         humps_section(a, &mut out);
+        remeasure_section(a, &mut out);
         warnings_section(a, &mut out);
         Ok(out)
     }
@@ -72,6 +73,17 @@ fn verdict_section(a: &Analysis, out: &mut String) {
         _ => {
             let _ = writeln!(out, "Verdict   {word}: no limit covers the scan");
         }
+    }
+    if let Some(p) = a.detectors.predicted_pass {
+        let word = if p { "PASS" } else { "FAIL" };
+        wrap_into(
+            out,
+            &format!(
+                "{word} predicted with the quasi-peak and average detectors (from this peak scan; see Re-measure)"
+            ),
+            "          ",
+            "          ",
+        );
     }
     out.push('\n');
 }
@@ -329,6 +341,110 @@ fn peaks_section(a: &Analysis, out: &mut String) {
         );
     }
     out.push('\n');
+}
+
+/// Most re-measure points listed; the JSON and `--format remeasure` have them all.
+const MAX_REMEASURE: usize = 15;
+
+fn remeasure_section(a: &Analysis, out: &mut String) {
+    let plan = &a.detectors.remeasure;
+    if plan.points.is_empty() {
+        return;
+    }
+    let _ = writeln!(
+        out,
+        "Re-measure with QP/AV ({} point(s), smallest predicted margin first)",
+        plan.points.len()
+    );
+    let _ = writeln!(
+        out,
+        "  {:>12} {:>6} {:>6} {:>7} {:>7} {:>5} {:>6} {}",
+        "frequency", "QP", "AV", "QP mrg", "AV mrg", "+-", "dwell", "detectors"
+    );
+    let mut pts: Vec<_> = plan.points.iter().collect();
+    let least = |r: &crate::prediction::Remeasure| {
+        [r.qp_margin_db, r.av_margin_db]
+            .into_iter()
+            .flatten()
+            .fold(f64::INFINITY, f64::min)
+    };
+    pts.sort_by(|x, y| least(x).total_cmp(&least(y)));
+    let m = |x: Option<f64>| x.map_or("-".to_string(), |v| format!("{v:+.1}"));
+    for r in pts.iter().take(MAX_REMEASURE) {
+        let dets: Vec<&str> = r
+            .detectors
+            .iter()
+            .map(|d| match d {
+                crate::scan::Detector::QuasiPeak => "QP",
+                _ => "AV",
+            })
+            .collect();
+        let _ = writeln!(
+            out,
+            "  {:>12} {:>6.1} {:>6.1} {:>7} {:>7} {:>5.1} {:>5.1}s {}",
+            fmt_hz(r.freq_hz),
+            r.predicted_qp_dbuv,
+            r.predicted_av_dbuv,
+            m(r.qp_margin_db),
+            m(r.av_margin_db),
+            r.uncertainty_db,
+            r.dwell_s,
+            dets.join("+")
+        );
+    }
+    if plan.points.len() > MAX_REMEASURE {
+        let _ = writeln!(
+            out,
+            "  ... and {} more (see --format json or --format remeasure)",
+            plan.points.len() - MAX_REMEASURE
+        );
+    }
+    let saving = match (plan.full_sweep_s, plan.saved_s) {
+        (Some(full), Some(saved)) => format!(
+            "; a full quasi-peak/average sweep of the span at CISPR 16-1-1 settings takes about {}, so the list saves about {}",
+            fmt_duration(full),
+            fmt_duration(saved)
+        ),
+        _ => String::new(),
+    };
+    wrap_into(
+        out,
+        &format!(
+            "dwell {} in all (settling of the slowest detector and repetition at each point){saving}.",
+            fmt_duration(plan.time_s)
+        ),
+        "  ",
+        "  ",
+    );
+    for c in &a.detectors.checks {
+        wrap_into(
+            out,
+            &format!(
+                "measured {} scan given: the prediction was off by {:.1} dB (median), {:.1} dB at most, over {} peak(s); margins use the measured readings",
+                if c.detector == crate::scan::Detector::QuasiPeak {
+                    "quasi-peak"
+                } else {
+                    "average"
+                },
+                c.median_abs_error_db,
+                c.max_abs_error_db,
+                c.compared
+            ),
+            "  ",
+            "  ",
+        );
+    }
+    out.push('\n');
+}
+
+fn fmt_duration(s: f64) -> String {
+    if s >= 3600.0 {
+        format!("{:.1} h", s / 3600.0)
+    } else if s >= 120.0 {
+        format!("{:.0} min", s / 60.0)
+    } else {
+        format!("{s:.0} s")
+    }
 }
 
 fn humps_section(a: &Analysis, out: &mut String) {
