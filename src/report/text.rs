@@ -358,8 +358,8 @@ fn remeasure_section(a: &Analysis, out: &mut String) {
     );
     let _ = writeln!(
         out,
-        "  {:>12} {:>6} {:>6} {:>7} {:>7} {:>5} {:>6} {}",
-        "frequency", "QP", "AV", "QP mrg", "AV mrg", "+-", "dwell", "detectors"
+        "  {:>12} {:>6} {:>6} {:>7} {:>7} {:>5} {:>6} detectors",
+        "frequency", "QP", "AV", "QP mrg", "AV mrg", "+-", "dwell"
     );
     let mut pts: Vec<_> = plan.points.iter().collect();
     let least = |r: &crate::prediction::Remeasure| {
