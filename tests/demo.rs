@@ -69,8 +69,13 @@ fn family_near(doc: &serde_json::Value, f0: f64, rel: f64) -> Option<&serde_json
 fn demo_names_the_converters_with_their_fundamentals() {
     let doc = demo_json();
     // source: scene demo-board.toml, flyback f0 = 65 kHz and buck f0 = 400 kHz (rendered
-    // exactly); each estimate lies within three of its stated sigmas of the truth
-    for (f0, kind) in [(65e3, "switching"), (400e3, "switching")] {
+    // exactly) and the MCU crystal 3.579545 MHz (a standard crystal value, METHODS.md §10);
+    // each estimate lies within three of its stated sigmas of the truth
+    for (f0, kind) in [
+        (65e3, "switching"),
+        (400e3, "switching"),
+        (3.579545e6, "clock"),
+    ] {
         let f = family_near(&doc, f0, 1e-3).unwrap_or_else(|| panic!("no family near {f0}"));
         let est = f["fundamental_hz"].as_f64().unwrap();
         let sigma = f["fundamental_sigma_hz"].as_f64().unwrap();

@@ -21,6 +21,10 @@ pub struct Line {
     pub width_hz: f64,
 }
 
+/// The chance test counts as trials only the lines at least this close (dB) to the strength of
+/// the candidate's weakest member: a crowd of weak lines cannot stand in for a few strong ones.
+pub const STRENGTH_SLACK_DB: f64 = 3.0;
+
 /// Widest emission, as a share of the fundamental, that can be one harmonic.
 pub const MAX_WIDTH_SHARE: f64 = 0.7;
 
@@ -178,7 +182,8 @@ impl Sieve<'_> {
     }
 
     /// The chance that lines at random give this many hits: each free line within the run's
-    /// span lands within tolerance of a predicted harmonic with its own probability
+    /// span, and at least about as strong as the weakest hit ([`STRENGTH_SLACK_DB`]), lands
+    /// within tolerance of a predicted harmonic with its own probability
     /// p_i = 2·tol_i/f0 (halved when only odd harmonics are predicted); the number of hits then
     /// follows the Poisson-binomial law of those trials, whose upper tail is summed exactly.
     ///
@@ -203,6 +208,12 @@ impl Sieve<'_> {
         } else {
             1.0
         };
+        // only lines about as strong as the family's weakest member could stand in for them
+        let weakest = c
+            .hits
+            .iter()
+            .map(|&(i, _)| self.lines[i].strength_db)
+            .fold(f64::INFINITY, f64::min);
         let probs: Vec<f64> = self
             .lines
             .iter()
@@ -212,6 +223,7 @@ impl Sieve<'_> {
                     && l.freq_hz >= lo
                     && l.freq_hz <= hi
                     && l.width_hz <= MAX_WIDTH_SHARE * f0
+                    && l.strength_db >= weakest - STRENGTH_SLACK_DB
             })
             .map(|(_, l)| {
                 let n = (l.freq_hz / f0).round().max(1.0);
@@ -608,6 +620,48 @@ mod tests {
             c.hits.len()
         );
         assert!(c.excess < c.value);
+    }
+
+    /// Three strong odd harmonics of a 3.579545 MHz crystal (a standard value, METHODS.md §10)
+    /// among 60 weak unrelated lines: the weak crowd cannot stand in for the strong lines, so
+    /// chance does not explain the family; were the crowd as strong, it would.
+    #[test]
+    fn weak_lines_do_not_explain_strong_ones() {
+        let f0 = 3_579_545.0;
+        let mut l = lines(&[3.0 * f0, 5.0 * f0, 7.0 * f0]);
+        for line in &mut l {
+            line.strength_db = 15.0;
+        }
+        let mut x: u64 = 99;
+        for _ in 0..60 {
+            x = x
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            let f = 8.9e6 + (x >> 11) as f64 / (1u64 << 53) as f64 * 18e6;
+            l.push(Line {
+                strength_db: 2.0,
+                ..lines(&[f])[0]
+            });
+        }
+        l.sort_by(|a, b| a.freq_hz.total_cmp(&b.freq_hz));
+        // a 4.5 kHz display step: a line is placed within ±step/2, σ = step/√12 ≈ 1.3 kHz
+        for line in &mut l {
+            line.sigma_hz = 1300.0;
+        }
+        let s = sieve(&l, &[]);
+        let c = s.refined(f0, 150.0, Pattern::OddOnly);
+        assert_eq!(c.hits.len(), 3);
+        assert!(
+            s.chance(&c) < SieveParams::default().max_chance,
+            "{}",
+            s.chance(&c)
+        );
+        let mut crowd = l.clone();
+        for line in &mut crowd {
+            line.strength_db = 15.0;
+        }
+        let s = sieve(&crowd, &[]);
+        assert!(s.chance(&c) > SieveParams::default().max_chance);
     }
 
     /// A refinement step that loses its way (rescored with a loose tolerance in a crowd) never
