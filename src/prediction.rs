@@ -112,9 +112,22 @@ fn evidence_of(
     inventory: Option<&Inventory>,
     rbw_hz: f64,
 ) -> (Option<Evidence>, Option<f64>) {
-    let hump = humps
-        .iter()
-        .find(|h| p.freq_hz >= h.start_hz && p.freq_hz <= h.stop_hz);
+    // a peak on a dithered plateau is part of it, unless it sits on a harmonic of another
+    // family (a converter's line on the plateau): that line is read on its own
+    let on_other_family = |own: Option<usize>| {
+        families.iter().any(|f| {
+            Some(f.id) != own && f.kind != crate::analysis::Kind::Broadcast && {
+                let n = (p.freq_hz / f.fundamental_hz).round().max(1.0);
+                (p.freq_hz - n * f.fundamental_hz).abs() <= 0.5 * rbw_hz
+            }
+        })
+    };
+    let hump = humps.iter().find(|h| {
+        p.freq_hz >= h.start_hz
+            && p.freq_hz <= h.stop_hz
+            && (p.family.is_some_and(|id| Some(id) == h.family)
+                || (p.family.is_none() && h.family.is_some() && !on_other_family(h.family)))
+    });
     let family_id = p.family.or(hump.and_then(|h| h.family));
     let family = family_id.and_then(|id| families.iter().find(|f| f.id == id));
     let declared = family

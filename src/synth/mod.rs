@@ -30,10 +30,12 @@
 //! # Ok::<(), spurhound::synth::SceneError>(())
 //! ```
 
+pub mod detect;
 pub mod random;
 pub mod render;
 pub mod scene;
 
+pub use detect::render_detector;
 pub use render::{render, render_sweeps, trapezoid_harmonic_peak};
 pub use scene::{Scene, parse_scene, read_scene_file};
 

@@ -433,7 +433,7 @@ fn spread_fraction(p: &Periodic, n: f64, rbw_hz: f64) -> f64 {
 
 /// Rms reading of harmonic n relative to harmonic 1, dB: the trapezoid spectrum (METHODS §5,
 /// τr = t_10-90/0.8), the coupling tilt, the dither loss and the in-RBW comb gain.
-fn relative_db(p: &Periodic, duty: f64, n: u32, rbw_hz: f64) -> f64 {
+pub(crate) fn relative_db(p: &Periodic, duty: f64, n: u32, rbw_hz: f64) -> f64 {
     let t = 1.0 / p.f0_hz;
     let ramp = p.edge_time_s / 0.8;
     let c1 = trapezoid_harmonic_peak(1, 1.0, t, duty, ramp);
@@ -457,7 +457,7 @@ fn harmonics_in(f0_hz: f64, s: &ScanSetting) -> std::ops::RangeInclusive<u32> {
 }
 
 /// Rms floor of the scene at `freq_hz`, dBµV (−300 without a floor).
-fn floor_at(scene: &Scene, freq_hz: f64) -> f64 {
+pub(crate) fn floor_at(scene: &Scene, freq_hz: f64) -> f64 {
     match &scene.floor {
         Some(f) => f.level_dbuv + f.slope_db_per_decade * (freq_hz / scene.scan.start_hz).log10(),
         None => -300.0,
@@ -1284,7 +1284,7 @@ fn worst_margin(lines: &[TruthLine], limit: &Limit) -> Option<f64> {
 }
 
 /// Resolution distance at `freq_hz`: 2·max(RBW, display step).
-fn resolution(s: &ScanSetting, freq_hz: f64) -> f64 {
+pub(crate) fn resolution(s: &ScanSetting, freq_hz: f64) -> f64 {
     2.0 * s.rbw_hz.max(step_at(s, freq_hz))
 }
 

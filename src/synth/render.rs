@@ -985,6 +985,9 @@ fn to_scan(scene: &Scene, freqs: &[f64], levels: Vec<f64>) -> Result<Scan, Scene
 /// [`SceneError::BadField`] for a value [`Scene::validate`] refuses or a scene too large to
 /// render; [`SceneError::Render`] if the points do not make a valid scan.
 pub fn render(scene: &Scene) -> Result<Scan, SceneError> {
+    if scene.scan.detector == Detector::QuasiPeak {
+        return super::detect::render_detector(scene, Detector::QuasiPeak);
+    }
     let plan = Plan::new(scene)?;
     let mut levels = plan.sweep(0);
     for k in 1..scene.scan.sweeps {
