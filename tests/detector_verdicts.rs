@@ -162,4 +162,20 @@ fn a_measured_qp_scan_wins() {
         .unwrap();
     let measured = f(&p["prediction"]["measured_qp_dbuv"]);
     assert!((measured - (f(&p["level_dbuv"]) - 2.0)).abs() < 0.3, "{p}");
+    // the same scan with its detector given by flag instead of metadata
+    let text = std::fs::read_to_string(&path).unwrap();
+    let flagged = dir.join("dut-qp-flag.csv");
+    std::fs::write(
+        &flagged,
+        text.replace("detector = quasi-peak", "detector = peak"),
+    )
+    .unwrap();
+    let mut args = DEMO.to_vec();
+    args.extend_from_slice(&[
+        "--also",
+        flagged.to_str().unwrap(),
+        "--also-detector",
+        "quasi-peak",
+    ]);
+    assert_eq!(json(&args)["detector_checks"][0]["detector"], "quasi-peak");
 }

@@ -74,6 +74,10 @@ pub struct AnalyzeArgs {
     /// told apart by how each peak changes.
     #[arg(long, value_name = "FILE")]
     pub also: Vec<PathBuf>,
+    /// Detector of the `--also` scans (replaces what their files say); a quasi-peak or average
+    /// scan replaces the predicted readings.
+    #[arg(long, value_enum)]
+    pub also_detector: Option<DetectorArg>,
     /// The board's oscillator inventory (TOML, one `[[source]]` table per oscillator):
     /// families are matched to the declared sources, and their edges, duty and spread size the
     /// remedies.

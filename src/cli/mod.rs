@@ -80,6 +80,16 @@ pub fn run() -> ExitCode {
     }
 }
 
+fn detector_of(d: DetectorArg) -> Detector {
+    match d {
+        DetectorArg::Peak => Detector::Peak,
+        DetectorArg::QuasiPeak => Detector::QuasiPeak,
+        DetectorArg::Average => Detector::Average,
+        DetectorArg::Rms => Detector::Rms,
+        DetectorArg::Sample => Detector::Sample,
+    }
+}
+
 fn read_options(r: &ReadArgs) -> Result<ReadOptions, CliError> {
     let mut opts = ReadOptions {
         sort: r.sort,
@@ -96,13 +106,7 @@ fn read_options(r: &ReadArgs) -> Result<ReadOptions, CliError> {
         })?;
         opts.rbw_hz = Some(hz);
     }
-    opts.detector = r.detector.map(|d| match d {
-        DetectorArg::Peak => Detector::Peak,
-        DetectorArg::QuasiPeak => Detector::QuasiPeak,
-        DetectorArg::Average => Detector::Average,
-        DetectorArg::Rms => Detector::Rms,
-        DetectorArg::Sample => Detector::Sample,
-    });
+    opts.detector = r.detector.map(detector_of);
     opts.freq_unit = r.freq_unit.map(|u| match u {
         FreqUnitArg::Hz => FreqUnit::Hz,
         FreqUnitArg::Khz => FreqUnit::KHz,
@@ -191,7 +195,7 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
     let (dut, ambient) = read_scans(&a.scan, &a.ambient, &opts, &ambient_opts, verbose)?;
     let also_opts = ReadOptions {
         rbw_hz: None,
-        detector: None,
+        detector: a.also_detector.map(detector_of),
         ..opts.clone()
     };
     let also = a
