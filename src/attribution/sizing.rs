@@ -670,7 +670,7 @@ fn lc_filter(needs: &[Need], p: &SizingParams) -> Option<LcFilter> {
         warnings.push("with the damping leg fitted the filter falls short at some failure: step L up one value".into());
     }
     let sentence = format!(
-        "LC filter: {} in series and {} across the converter input (corner {}) give ≥ {:.0} dB at {}, the binding failure; damp it with {} in series with {} across the capacitor",
+        "LC filter: {} in series and {} across the supply input (corner {}) give ≥ {:.0} dB at {}, the binding failure; damp it with {} in series with {} across the capacitor",
         fmt_si(l, "H"),
         fmt_si(c, "F"),
         fmt_hz(actual_corner_hz),
@@ -1235,16 +1235,27 @@ fn spread_depth(needs: &[Need], s: &Subject, rbw_hz: f64) -> Option<SpreadDepth>
         ));
     }
     let harmonic = binding.freq_hz / s.fundamental_hz;
-    let sentence = format!(
-        "spread spectrum: a total spread of {:.2} % of {} ({}) lowers the peak reading of harmonic {:.0} at {} by ≥ {:.0} dB in a {} RBW",
-        delta * 100.0,
-        fmt_hz(s.fundamental_hz),
-        fmt_hz(delta * s.fundamental_hz),
-        harmonic,
-        fmt_hz(binding.freq_hz),
-        binding.needed_db,
-        fmt_hz(rbw_hz)
-    );
+    let sentence = if delta > limit {
+        format!(
+            "spread spectrum: not a practical fix here: ≥ {:.0} dB at {} would take a total spread of {:.1} % of {}, beyond the {:.0} % commonly used",
+            binding.needed_db,
+            fmt_hz(binding.freq_hz),
+            delta * 100.0,
+            fmt_hz(s.fundamental_hz),
+            limit * 100.0
+        )
+    } else {
+        format!(
+            "spread spectrum: a total spread of {:.2} % of {} ({}) lowers the peak reading of harmonic {:.0} at {} by ≥ {:.0} dB in a {} RBW",
+            delta * 100.0,
+            fmt_hz(s.fundamental_hz),
+            fmt_hz(delta * s.fundamental_hz),
+            harmonic,
+            fmt_hz(binding.freq_hz),
+            binding.needed_db,
+            fmt_hz(rbw_hz)
+        )
+    };
     Some(SpreadDepth {
         binding,
         harmonic,
@@ -1269,13 +1280,14 @@ fn layout_notes(needs: &[Need], s: &Subject) -> Vec<LayoutNote> {
     let below_boundary = needs.iter().any(|n| n.freq_hz < DM_CM_BOUNDARY_HZ);
     let above_boundary = needs.iter().any(|n| n.freq_hz >= DM_CM_BOUNDARY_HZ);
     let any = |lo: f64, hi: f64| needs.iter().any(|n| (lo..=hi).contains(&n.freq_hz));
-    if s.conducted && below_boundary {
+    let converter = s.kind == Kind::Switching;
+    if s.conducted && below_boundary && converter {
         out.push(LayoutNote {
             text: "differential mode: put the filter capacitor right at the converter input and keep the loop of input capacitor, switch and return small".into(),
             rule: "below about 5 MHz conducted noise is mostly differential mode (METHODS §9)",
         });
     }
-    if s.conducted && above_boundary {
+    if s.conducted && above_boundary && converter {
         out.push(LayoutNote {
             text: "common mode: shrink the switch-node copper and its capacitance to heatsink and chassis, return Y capacitors to the primary side, keep input and output wiring apart".into(),
             rule: "above about 5 MHz conducted noise is mostly common mode, driven through stray capacitance (METHODS §9)",
