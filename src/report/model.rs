@@ -106,6 +106,9 @@ pub struct FamilyDoc<'a> {
     pub exceedances: &'a [crate::attribution::sizing::Exceedance],
     /// Remedies sized for the exceedances, each with its model and assumptions.
     pub sized_remedies: Option<&'a crate::attribution::sizing::SizedRemedies>,
+    /// Duty, edge time (10-90 %), dither and a rule-of-thumb DM/CM score of a switching family
+    /// from its harmonic envelope, each with a 95 % interval or a bound.
+    pub fingerprint: Option<&'a crate::families::fingerprint::Fingerprint>,
 }
 
 #[derive(Debug, Serialize)]
@@ -170,6 +173,7 @@ fn family_doc(f: &Family) -> FamilyDoc<'_> {
         declared_match: f.declared_source.as_ref(),
         exceedances: &f.exceedances,
         sized_remedies: f.sized.as_ref(),
+        fingerprint: f.fingerprint.as_ref(),
     }
 }
 
