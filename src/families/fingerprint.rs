@@ -504,8 +504,8 @@ impl Problem {
 /// E[y | y > T] = L + σ·λ(α),  α = (T − L)/σ,  λ(α) = φ(α)/(1 − Φ(α))
 /// d/dL = 1 − λ(α)·(λ(α) − α)
 /// ```
-/// the mean of a truncated normal distribution (λ is the inverse Mills ratio; any statistics
-/// text); λ ≈ α + 1/α − 2/α³ for α > 10 (its asymptotic series).
+/// the mean of a truncated normal distribution (λ is the hazard rate of the standard normal;
+/// any statistics text); λ ≈ α + 1/α − 2/α³ for α > 10 (its asymptotic series).
 pub fn selected_mean_db(level_db: f64, sigma_db: f64, threshold_db: f64) -> (f64, f64) {
     let a = (threshold_db - level_db) / sigma_db;
     let lambda = if a > 10.0 {
@@ -527,7 +527,7 @@ pub fn selected_mean_db(level_db: f64, sigma_db: f64, threshold_db: f64) -> (f64
 /// α = (U − L)/σ,  c = −2·ln Φ(α),  e = √c,  de/dL = φ(α)/(Φ(α)·σ·e)
 /// ```
 /// the log-likelihood of a left-censored normal observation (censored regression; any
-/// statistics text). For α < −30: ln Φ(α) ≈ −α²/2 − ln(−α) − ½·ln(2π), φ/Φ ≈ −α − 1/α (Mills'
+/// statistics text). For α < −30: ln Φ(α) ≈ −α²/2 − ln(−α) − ½·ln(2π), φ/Φ ≈ −α − 1/α (the
 /// asymptotic series).
 fn censored_root(level: f64, below: f64, sigma: f64) -> (f64, f64) {
     let a = (below - level) / sigma;
@@ -635,7 +635,7 @@ fn normal_equations(jac: &[Theta], e: &[f64], free: &[usize]) -> (Vec<Vec<f64>>,
 /// the bounds enforced by projecting every trial point; returns the point and S.
 ///
 /// # Method
-/// Step δ from (JᵀJ + λ·diag(JᵀJ))·δ = −Jᵀe (Marquardt's scaling; the diagonal is floored
+/// Step δ from (JᵀJ + λ·diag(JᵀJ))·δ = −Jᵀe (diagonal scaling; the diagonal is floored
 /// at 10⁻¹²·its largest element so a flat direction stays regular); a trial that lowers S is
 /// taken and λ divided by 3, else λ is multiplied by 4. It stops when S falls by less than
 /// 10⁻¹²·(1 + S), after 200 iterations, or when λ exceeds 10¹⁰. (Nonlinear least squares,
