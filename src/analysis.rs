@@ -10,7 +10,7 @@ use crate::ambient::{self, AmbientScan, PeakAmbient};
 use crate::attribution::{self, remedies};
 use crate::bandwidth;
 use crate::correct::TransducerChain;
-use crate::families::{self, FamilyFit, FamilyParams, sieve::Pattern};
+use crate::families::{self, FamilyFit, FamilyParams, fingerprint, sieve::Pattern};
 use crate::floor::{Floor, FloorParams, estimate_floor};
 use crate::limits::{Limit, Margins, margins};
 use crate::peaks::{FoundPeak, PeakParams, find_peaks};
@@ -134,6 +134,8 @@ pub struct Family {
     pub sized: Option<crate::attribution::sizing::SizedRemedies>,
     /// The prediction of its member with the smallest predicted QP/AV margin.
     pub predicted_worst: Option<crate::prediction::PeakPrediction>,
+    /// Duty, edge time, dither and DM/CM of a switching family with enough harmonics.
+    pub fingerprint: Option<crate::families::fingerprint::Fingerprint>,
 }
 
 impl Default for Family {
@@ -158,6 +160,7 @@ impl Default for Family {
             declared_source: None,
             sized: None,
             predicted_worst: None,
+            fingerprint: None,
         }
     }
 }
@@ -302,7 +305,13 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         discriminate_peaks(&mut peaks, &found, &dut, also);
         !peaks.is_empty() && peaks.iter().all(|p| p.discrimination.is_none())
     });
-    let mut families = build_families(&fits, &mut peaks, &limits, &dut, ambient.is_empty());
+    let mut families = build_families(
+        &fits,
+        &mut peaks,
+        &limits,
+        (&dut, &floor),
+        ambient.is_empty(),
+    );
     let inventory = ctx
         .sources
         .as_ref()
@@ -496,7 +505,7 @@ fn build_families(
     fits: &[FamilyFit],
     peaks: &mut [Peak],
     limits: &[LimitResult],
-    dut: &Scan,
+    (dut, floor): (&Scan, &Floor),
     no_ambient: bool,
 ) -> Vec<Family> {
     let conducted = is_conducted(dut);
@@ -572,10 +581,61 @@ fn build_families(
             declared_source: None,
             sized: None,
             predicted_worst: None,
+            fingerprint: (kind == Kind::Switching)
+                .then(|| fingerprint_of(fit, origin, peaks, (dut, floor), conducted))
+                .flatten(),
         });
     }
     attribution::rank::rank(&mut out);
     out
+}
+
+/// The fingerprint of a switching family with at least [`fingerprint::MIN_HARMONICS`]
+/// harmonics (not a broadcast set). Members of another origin than the family's (a board
+/// line the ambient also shows carries the lab's level too) are left out while enough remain.
+fn fingerprint_of(
+    fit: &FamilyFit,
+    origin: Origin,
+    peaks: &[Peak],
+    (dut, floor): (&Scan, &Floor),
+    conducted: bool,
+) -> Option<fingerprint::Fingerprint> {
+    if fit.raster.is_some() || fit.members.len() < fingerprint::MIN_HARMONICS {
+        return None;
+    }
+    let own = |p: &Peak| match origin {
+        Origin::Dut => matches!(p.origin, Origin::Dut | Origin::Unknown),
+        Origin::Ambient => p.origin == Origin::Ambient,
+        Origin::Mixed | Origin::Unknown => true,
+    };
+    let members: Vec<(&Peak, u32)> = fit
+        .members
+        .iter()
+        .filter_map(|&(i, n)| peaks.get(i).map(|p| (p, n)))
+        .collect();
+    let clean = members.iter().filter(|(p, _)| own(p)).count() >= fingerprint::MIN_HARMONICS;
+    // a scan that does not say is taken as peak-detected
+    let peak_detector = matches!(dut.meta.detector, None | Some(Detector::Peak));
+    let harmonics: Vec<fingerprint::HarmonicLevel> = members
+        .iter()
+        .filter(|(p, _)| !clean || own(p))
+        .map(|(p, n)| {
+            let reading = (p.level_dbuv, p.over_floor_db, p.significance_db);
+            fingerprint::seen_harmonic(*n, reading, peak_detector)
+        })
+        .collect();
+    let member_n: Vec<u32> = fit.members.iter().map(|m| m.1).collect();
+    let spread = fit.envelope.spread_pct;
+    let absent = fingerprint::absent_harmonics(dut, floor, fit.fundamental_hz, &member_n, spread);
+    let levels = fingerprint::FamilyLevels {
+        fundamental_hz: fit.fundamental_hz,
+        harmonics: &harmonics,
+        absent: &absent,
+        envelope: Some(&fit.envelope),
+        rbw_hz: dut.meta.rbw_hz,
+        conducted,
+    };
+    fingerprint::fingerprint(&levels, &fingerprint::FitParams::default()).ok()
 }
 
 /// The display point of peak `i` (peaks keep the order of the found peaks).

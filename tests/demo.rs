@@ -120,6 +120,36 @@ fn demo_ranks_the_failing_flyback_first_and_marks_the_ambient() {
     assert!(ambient_peaks >= 3, "{ambient_peaks}");
 }
 
+#[test]
+fn demo_fingerprints_give_the_flyback_and_buck_duty_and_edges() {
+    let doc = demo_json();
+    // source: scene demo-board.toml, flyback duty 0.32, 80 ns edges; 5 V buck duty 0.42,
+    // 12 ns edges, +4 dB/decade coupling; each 95 % interval covers the declared value
+    for (f0, duty, edge_s) in [(65e3, 0.32, 80e-9), (400e3, 0.42, 12e-9)] {
+        let f = family_near(&doc, f0, 1e-3).unwrap();
+        let fp = &f["fingerprint"];
+        assert_eq!(fp["fit_quality"], "good", "{fp}");
+        let (lo, hi) = (
+            fp["duty_ci"][0].as_f64().unwrap(),
+            fp["duty_ci"][1].as_f64().unwrap(),
+        );
+        assert!(lo <= duty && duty <= hi, "{f0}: duty {lo}-{hi}");
+        let ci = &fp["edge_time_ci_s"];
+        let (lo, hi) = (ci[0].as_f64().unwrap(), ci[1].as_f64().unwrap());
+        assert!(lo <= edge_s && edge_s <= hi, "{f0}: edges {lo}-{hi}");
+        assert_eq!(fp["mode"]["basis"], "rule of thumb");
+    }
+    let text = stdout(&spurhound(&DEMO));
+    let line = text
+        .lines()
+        .find(|l| l.trim_start().starts_with("fingerprint: duty 0.32"))
+        .unwrap_or_else(|| panic!("no flyback fingerprint line\n{text}"));
+    assert!(
+        line.contains("rule of thumb") && line.chars().count() <= 80,
+        "{line}"
+    );
+}
+
 /// With the demo board's inventory (fixtures/sources/demo-board.toml, the designer's own
 /// declaration of the scene's oscillators) every converter family names its declared source.
 #[test]

@@ -58,10 +58,48 @@ fn check_contract(doc: &Value) {
                 .iter()
                 .all(|r| r.is_string())
         );
+        check_fingerprint(&f["fingerprint"]);
     }
     let v = &doc["verdict"];
     assert!(v["pass"].is_boolean() || v["pass"].is_null());
     assert!(is_num_or_null(&v["worst_margin_db"]));
+}
+
+/// `fingerprint`: null, or duty and edge time with two-element intervals (an end null when
+/// open), a status per parameter, and the DM/CM score marked as a rule of thumb.
+fn check_fingerprint(fp: &Value) {
+    if fp.is_null() {
+        return;
+    }
+    let status = [
+        "estimated",
+        "upper-bound",
+        "lower-bound",
+        "not-identifiable",
+    ];
+    for (value, ci, st) in [
+        ("duty", "duty_ci", "duty_status"),
+        ("edge_time_s", "edge_time_ci_s", "edge_time_status"),
+    ] {
+        assert!(is_num_or_null(&fp[value]), "{value}");
+        let ci = fp[ci].as_array().expect("an interval is a pair");
+        assert!(ci.len() == 2 && ci.iter().all(is_num_or_null));
+        assert!(status.contains(&fp[st].as_str().unwrap()));
+    }
+    assert!(["good", "poor"].contains(&fp["fit_quality"].as_str().unwrap()));
+    assert!(fp["amplitude_dbuv"].is_number() && fp["residual_rms_db"].is_number());
+    assert!(
+        fp["notes"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .all(|n| n.is_string())
+    );
+    if !fp["mode"].is_null() {
+        let dm = fp["mode"]["dm_likelihood"].as_f64().unwrap();
+        assert!((0.0..=1.0).contains(&dm));
+        assert_eq!(fp["mode"]["basis"], "rule of thumb");
+    }
 }
 
 #[test]
@@ -103,4 +141,18 @@ fn several_limits_are_judged_together() {
     assert_eq!(doc["verdict"]["worst_limit"], "cispr32-b-av");
     assert!((doc["verdict"]["worst_margin_db"].as_f64().unwrap() - (-13.0143)).abs() < 1e-3);
     assert_eq!(doc["verdict"]["worst_freq_hz"], 180e3);
+}
+
+#[test]
+fn demo_scan_with_families_follows_the_contract() {
+    let doc = analysis(&["fixtures/demo/dut.csv", "--limit", "cispr32-b-qp"]);
+    check_contract(&doc);
+    // source: scene demo-board.toml, its converters are switching families with fingerprints
+    assert!(
+        doc["families"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|f| f["kind"] == "switching" && f["fingerprint"].is_object())
+    );
 }

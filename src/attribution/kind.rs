@@ -116,6 +116,7 @@ mod tests {
                 even_fraction,
                 width_growth_hz: None,
                 spread_pct: spread,
+                width_growth_se_hz: None,
             },
             raster: None,
         }

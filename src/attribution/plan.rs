@@ -57,8 +57,9 @@ pub fn declare(families: &mut [Family], inventory: &Inventory) -> InventoryUse {
 }
 
 /// Sizes remedies for every DUT family with harmonics over a limit. What the inventory declares
-/// of the family's source (edge time, duty, present spread) goes into the models; without it
-/// the models say what they assumed.
+/// of the family's source (edge time, duty, present spread) goes into the models; what it does
+/// not declare comes from the family's fingerprint when that estimates it (a bound is not used);
+/// without either the models say what they assumed.
 ///
 /// # Errors
 /// [`SizingError`] when the sizing settings are out of range.
@@ -78,12 +79,18 @@ pub fn size(
             .as_ref()
             .and_then(|m| inventory.and_then(|inv| inv.sources.get(m.source_index)));
         let measured_spread = f.envelope.as_ref().and_then(|e| e.spread_pct);
+        // the fingerprint's estimates (never its bounds) stand in for what is not declared
+        let fingerprint = f.fingerprint.as_ref();
         let subject = Subject {
             fundamental_hz: f.fundamental_hz,
             kind: f.kind,
             conducted,
-            edge_time_s: declared.and_then(|s| s.edge_time_s),
-            duty: declared.and_then(|s| s.duty),
+            edge_time_s: declared
+                .and_then(|s| s.edge_time_s)
+                .or(fingerprint.and_then(|p| p.edge_time_s)),
+            duty: declared
+                .and_then(|s| s.duty)
+                .or(fingerprint.and_then(|p| p.duty)),
             spread_pct: declared.and_then(|s| s.spread_pct).or(measured_spread),
         };
         f.sized = Some(size_remedies(&subject, &f.exceedances, params)?);
@@ -169,5 +176,64 @@ tolerance_ppm = 50
         assert!(fams[1].sized.is_none(), "ambient families are not sized");
         assert!(fams[2].sized.is_none(), "a passing family needs nothing");
         assert!(!sized_sentences(fams[0].sized.as_ref()).is_empty());
+    }
+
+    /// A fingerprint of a 100 kHz converter, duty 0.3, 100 ns ramps (80 ns 10-90 %), fitted to
+    /// the synth's trapezoid harmonics (METHODS.md §5 formula).
+    fn fingerprint() -> crate::families::fingerprint::Fingerprint {
+        use crate::families::fingerprint::{FamilyLevels, FitParams, HarmonicLevel};
+        let levels: Vec<HarmonicLevel> = (2..=150)
+            .map(|n| {
+                let c = crate::synth::trapezoid_harmonic_peak(n, 1.0, 10e-6, 0.3, 100e-9);
+                HarmonicLevel {
+                    n,
+                    level_dbuv: 20.0 * (c / 2f64.sqrt() / 1e-6).log10(),
+                    sigma_db: 0.5,
+                    threshold_dbuv: None,
+                }
+            })
+            .filter(|h| h.level_dbuv > 60.0)
+            .collect();
+        let fam = FamilyLevels {
+            fundamental_hz: 100e3,
+            harmonics: &levels,
+            absent: &[],
+            envelope: None,
+            rbw_hz: Some(9e3),
+            conducted: true,
+        };
+        crate::families::fingerprint::fingerprint(&fam, &FitParams::default()).unwrap()
+    }
+
+    #[test]
+    fn the_fingerprint_stands_in_for_an_undeclared_edge_time_and_duty() {
+        let inv = parse_inventory(INVENTORY, "board.toml").unwrap();
+        let mut fams = vec![
+            family(1, 65_012.0, 2.0, Kind::Switching, Origin::Dut),
+            family(2, 100e3, 2.0, Kind::Switching, Origin::Dut),
+        ];
+        for f in &mut fams {
+            f.exceedances = vec![Exceedance {
+                freq_hz: 20e6,
+                over_db: 8.0,
+            }];
+            f.fingerprint = Some(fingerprint());
+        }
+        declare(&mut fams, &inv);
+        size(&mut fams, Some(&inv), true, &SizingParams::default()).unwrap();
+        let edges = |f: &Family| {
+            f.sized
+                .as_ref()
+                .unwrap()
+                .edges
+                .as_ref()
+                .unwrap()
+                .rise_time_s
+        };
+        // source: INVENTORY above, the flyback declares 30 ns: the declaration wins
+        assert_eq!(edges(&fams[0]), Some(30e-9));
+        // family 2 is not on the inventory: its fingerprint's 80 ns (the synth's 100 ns ramps)
+        let t = edges(&fams[1]).unwrap();
+        assert!((t - 80e-9).abs() < 2e-9, "{t}");
     }
 }

@@ -26,6 +26,8 @@ pub struct Envelope {
     pub width_growth_hz: Option<f64>,
     /// Peak-to-peak frequency spread as a percentage of the fundamental, when the widths grow.
     pub spread_pct: Option<f64>,
+    /// Standard error of the width growth (Hz per harmonic number), from its fit's residuals.
+    pub width_growth_se_hz: Option<f64>,
 }
 
 /// Least-squares slope and intercept of y on x; `None` for fewer than two distinct x.
@@ -79,7 +81,8 @@ pub fn describe(harmonics: &[Harmonic], f0_hz: f64, line_width_hz: f64) -> Envel
         .iter()
         .map(|h| (f64::from(h.n), (h.width_hz - line_width_hz).max(0.0)))
         .collect();
-    let growth = linear_fit(&excess).map(|(b, _)| b);
+    let line = linear_fit(&excess);
+    let growth = line.map(|(b, _)| b);
     let top_n = harmonics.iter().map(|h| f64::from(h.n)).fold(0.0, f64::max);
     // the fitted growth must add at least a line width by the highest harmonic seen
     let dithered = growth.is_some_and(|g| g > 0.0 && g * top_n >= line_width_hz);
@@ -90,7 +93,27 @@ pub fn describe(harmonics: &[Harmonic], f0_hz: f64, line_width_hz: f64) -> Envel
         even_fraction,
         width_growth_hz: growth,
         spread_pct,
+        width_growth_se_hz: line.and_then(|l| slope_se(&excess, l)),
     }
+}
+
+/// Standard error of a least-squares slope; `None` for fewer than three points.
+///
+/// # Formula
+/// ```text
+/// se(b) = √( Σ(y − a − b·x)² / (k − 2) / Σ(x − x̄)² )
+/// ```
+/// # Source
+/// Ordinary least squares (any statistics text).
+pub fn slope_se(points: &[(f64, f64)], (b, a): (f64, f64)) -> Option<f64> {
+    let k = points.len();
+    if k < 3 {
+        return None;
+    }
+    let mx = points.iter().map(|p| p.0).sum::<f64>() / k as f64;
+    let sxx: f64 = points.iter().map(|p| (p.0 - mx).powi(2)).sum();
+    let rss: f64 = points.iter().map(|p| (p.1 - a - b * p.0).powi(2)).sum();
+    (sxx > 0.0).then(|| (rss / (k - 2) as f64 / sxx).sqrt())
 }
 
 fn even_fraction(harmonics: &[Harmonic]) -> f64 {
@@ -151,7 +174,24 @@ mod tests {
             .collect();
         let e = describe(&h, 1.2e6, 9e3);
         assert!((e.spread_pct.unwrap() - 4.0).abs() < 1e-9);
+        assert!(
+            e.width_growth_se_hz.unwrap() < 1e-6,
+            "an exact line has no scatter"
+        );
         assert_eq!(e.even_fraction, 1.0);
+    }
+
+    #[test]
+    fn slope_standard_error_of_a_known_scatter() {
+        // source: derived by hand: b = Sxy/Sxx = 3/5 = 0.6, a = 1.5 − 0.6·1.5 = 0.6,
+        // residuals (0.4, −1.2, 1.2, −0.4), RSS = 3.2, se = √(3.2/2/5) = 0.5657
+        let pts = [(0.0, 1.0), (1.0, 0.0), (2.0, 3.0), (3.0, 2.0)];
+        let l = linear_fit(&pts).unwrap();
+        assert!(
+            (l.0 - 0.6).abs() < 1e-12 && (l.1 - 0.6).abs() < 1e-12,
+            "{l:?}"
+        );
+        assert!((slope_se(&pts, l).unwrap() - 0.5657).abs() < 1e-4);
     }
 
     #[test]

@@ -6,6 +6,7 @@
 //! medium-wave broadcast carriers that a sieve must not mistake for a converter.
 
 pub mod envelope;
+pub mod fingerprint;
 pub mod raster;
 pub mod refine;
 pub mod sieve;

@@ -124,6 +124,9 @@ pub struct FamilyDoc<'a> {
     pub predicted_av_dbuv: Option<f64>,
     pub qp_margin_db: Option<f64>,
     pub av_margin_db: Option<f64>,
+    /// Duty, edge time (10-90 %), dither and a rule-of-thumb DM/CM score of a switching family
+    /// from its harmonic envelope, each with a 95 % interval or a bound.
+    pub fingerprint: Option<&'a crate::families::fingerprint::Fingerprint>,
 }
 
 #[derive(Debug, Serialize)]
@@ -199,6 +202,7 @@ fn family_doc(f: &Family) -> FamilyDoc<'_> {
         predicted_av_dbuv: f.predicted_worst.map(|x| x.av_dbuv),
         qp_margin_db: f.predicted_worst.and_then(|x| x.qp_margin_db),
         av_margin_db: f.predicted_worst.and_then(|x| x.av_margin_db),
+        fingerprint: f.fingerprint.as_ref(),
     }
 }
 

@@ -263,6 +263,9 @@ fn culprits_section(a: &Analysis, out: &mut String) {
         if !notes.is_empty() {
             wrap_into(out, &notes.join("; "), "     ", "     ");
         }
+        if let Some(fp) = &f.fingerprint {
+            wrap_into(out, &fingerprint_line(fp), "     ", "       ");
+        }
         if let Some(r) = f.remedies.first() {
             wrap_into(out, r, "     fix: ", "          ");
         }
@@ -287,6 +290,110 @@ fn culprits_section(a: &Analysis, out: &mut String) {
         }
     }
     out.push('\n');
+}
+
+/// One line on a family's fingerprint: duty and edge time with their 95 % intervals (or a
+/// bound), and the DM/CM rule of thumb; the long form when it fits [`WIDTH`] after the indent,
+/// else the modes abbreviated.
+fn fingerprint_line(fp: &crate::families::fingerprint::Fingerprint) -> String {
+    use crate::families::fingerprint::{Quality, Status};
+    if fp.fit_quality == Quality::Poor {
+        return "fingerprint: the harmonics do not follow a trapezoid (another source shares them?)"
+            .into();
+    }
+    let duty = match (fp.duty_status, fp.duty, fp.duty_ci) {
+        (Status::Estimated, Some(d), (Some(lo), Some(hi))) => {
+            format!("duty {d:.2} ({lo:.2}-{hi:.2})")
+        }
+        (Status::UpperBound, _, (_, Some(hi))) => format!("duty ≤ {hi:.2}"),
+        _ => "duty unknown".into(),
+    };
+    let edges = match (fp.edge_time_status, fp.edge_time_s, fp.edge_time_ci_s) {
+        (Status::Estimated, Some(t), (Some(lo), Some(hi))) => {
+            format!("edges {} ({})", fmt_time(t), fmt_time_range(lo, hi))
+        }
+        (Status::UpperBound, _, (_, Some(hi))) => format!("edges ≤ {}", fmt_time(hi)),
+        (Status::LowerBound, _, (Some(lo), _)) => format!("edges ≥ {}", fmt_time(lo)),
+        _ => "edges unknown".into(),
+    };
+    let short_edges = match (fp.edge_time_status, fp.edge_time_s, fp.edge_time_ci_s) {
+        (Status::Estimated, Some(t), (Some(lo), Some(hi))) => {
+            let (scale, _) = time_unit(t);
+            format!(
+                "edges {} ({}-{})",
+                fmt_time(t),
+                two_digits(lo / scale),
+                two_digits(hi / scale)
+            )
+        }
+        _ => edges.clone(),
+    };
+    let verdict = fp.mode.as_ref().map(|m| m.verdict);
+    let mode = |form: usize| match verdict {
+        None => String::new(),
+        Some(v) => {
+            let v = match form {
+                0 => v.to_string(),
+                1 => v
+                    .replace("differential mode", "DM")
+                    .replace("common mode", "CM"),
+                _ => v
+                    .replace("mostly ", "")
+                    .replace("mixed differential and common mode", "DM+CM")
+                    .replace("differential mode", "DM")
+                    .replace("common mode", "CM"),
+            };
+            format!(", {v} (rule of thumb)")
+        }
+    };
+    // the most explicit form that fits the 5-column indent
+    let forms = [
+        format!("fingerprint: {duty}, {edges}{}", mode(0)),
+        format!("fingerprint: {duty}, {short_edges}{}", mode(1)),
+        format!("fingerprint: {duty}, {short_edges}{}", mode(2)),
+    ];
+    let fits = |l: &String| l.chars().count() + 5 <= WIDTH;
+    forms.iter().find(|l| fits(l)).unwrap_or(&forms[2]).clone()
+}
+
+/// A time with two significant digits and an SI prefix: `80 ns`, `1.2 µs`.
+fn fmt_time(seconds: f64) -> String {
+    let (scale, unit) = time_unit(seconds);
+    format!("{} {unit}", two_digits(seconds / scale))
+}
+
+/// `55-120 ns`: both ends in the unit of the upper one.
+fn fmt_time_range(lo: f64, hi: f64) -> String {
+    let (scale, unit) = time_unit(hi);
+    format!(
+        "{}-{} {unit}",
+        two_digits(lo / scale),
+        two_digits(hi / scale)
+    )
+}
+
+fn time_unit(seconds: f64) -> (f64, &'static str) {
+    [(1.0, "s"), (1e-3, "ms"), (1e-6, "µs"), (1e-9, "ns")]
+        .into_iter()
+        .find(|(s, _)| seconds.abs() >= *s * 0.9995)
+        .unwrap_or((1e-12, "ps"))
+}
+
+/// Two significant digits, no trailing zeros: 80, 12, 1.2, 0.55.
+fn two_digits(v: f64) -> String {
+    let d = if v.abs() >= 9.95 {
+        0
+    } else if v.abs() >= 0.995 {
+        1
+    } else {
+        2
+    };
+    let t = format!("{v:.d$}");
+    if t.contains('.') {
+        t.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        t
+    }
 }
 
 /// Families whose sized remedies the text report shows (by rank); the JSON has them all.
