@@ -1,6 +1,7 @@
 //! The command line: the only place that knows clap, prints or exits.
 
 mod args;
+mod survey;
 
 use args::{
     AnalyzeArgs, Cli, Command, DetectorArg, FormatArg, FreqUnitArg, LevelUnitArg, LimitsArgs,
@@ -66,6 +67,7 @@ pub fn run() -> ExitCode {
     let cli = Cli::parse();
     let result = match &cli.command {
         Command::Analyze(a) => run_analyze(a, cli.verbose),
+        Command::Survey(s) => survey::run_survey(s, cli.verbose),
         Command::Limits(l) => run_limits(l),
         Command::Synth(s) => run_synth(s, cli.verbose),
     };
