@@ -2,7 +2,8 @@
 //!
 //! 1. correct the DUT scan and each ambient scan with the transducer chain;
 //! 2. margins of the corrected DUT trace to every limit, and of each ambient trace;
-//! 3. setup checks (detector, RBW, quantity, ambient near the limit) as warnings;
+//! 3. set-up checks ([`crate::setup`]: detector, RBW, display step, noise floor, overload,
+//!    quantity, ambient near the limit) as warnings;
 //! 4. peaks, families and their attribution (filled by the attribution stages; empty for now);
 //! 5. the verdict.
 
@@ -18,9 +19,7 @@ use crate::scan::{Detector, Scan};
 use crate::units::Quantity;
 use serde::Serialize;
 
-/// Ambient closer than this to the limit may mask the DUT (ANSI C63.4 §5.1.2 treats the
-/// ambient; the 6 dB figure is common practice).
-pub const AMBIENT_HEADROOM_DB: f64 = 6.0;
+pub use crate::setup::{AMBIENT_HEADROOM_DB, CISPR_BANDS, Warning};
 
 /// Everything besides the DUT scan that an analysis needs.
 #[derive(Debug, Clone, Default)]
@@ -163,13 +162,6 @@ impl Default for Family {
             fingerprint: None,
         }
     }
-}
-
-/// A check the user should read: a stable code and a sentence with the number and the fix.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Warning {
-    pub code: &'static str,
-    pub message: String,
 }
 
 /// The trace judged against one limit.
@@ -355,8 +347,14 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
             message: "the --also scan told nothing: it needs a stated RBW in both scans and another RBW (or peak against average with the same RBW)".into(),
         });
     }
-    check_setup(&dut, &ctx.limits, &limits, &mut warnings);
-    check_ambient(&dut, &ambient, &mut warnings);
+    let checks = crate::setup::ScanChecks {
+        scan: &dut,
+        raw: scan,
+        limits: &ctx.limits,
+        floor: Some(&floor),
+    };
+    crate::setup::check_scan(&checks, &mut warnings);
+    crate::setup::check_ambient(&dut, &ambient, &mut warnings);
     let floor = summarise(&floor);
     Ok(Analysis {
         scan: dut,
@@ -709,158 +707,6 @@ fn verdict(limits: &[LimitResult]) -> Verdict {
     v
 }
 
-/// CISPR 16-1-1 measuring-receiver bands: (start Hz, stop Hz, 6 dB RBW Hz, band name).
-pub const CISPR_BANDS: [(f64, f64, f64, &str); 3] = [
-    (9e3, 150e3, 200.0, "A"),
-    (150e3, 30e6, 9e3, "B"),
-    (30e6, 1e9, 120e3, "C/D"),
-];
-
-fn check_setup(dut: &Scan, given: &[Limit], results: &[LimitResult], warnings: &mut Vec<Warning>) {
-    if given.is_empty() {
-        warnings.push(Warning { code: "no-limit", message: "no limit given: margins and verdict need --limit NAME|FILE (see `spurhound limits`)".into() });
-    }
-    for r in results {
-        let l = &r.limit;
-        if r.margins.covered == 0 {
-            let (a, b) = l.range_hz();
-            warnings.push(Warning {
-                code: "limit-out-of-range",
-                message: format!(
-                    "no scan point lies in the range of {} ({} to {}); check the frequency unit",
-                    l.name,
-                    fmt_hz(a),
-                    fmt_hz(b)
-                ),
-            });
-        }
-        if l.quantity != dut.meta.quantity {
-            warnings.push(Warning {
-                code: "quantity-mismatch",
-                message: format!(
-                    "the scan is in {} but {} bounds {}; add the LISN factor or antenna factor with --transducer",
-                    dut.meta.quantity.unit(),
-                    l.name,
-                    l.quantity.unit()
-                ),
-            });
-        }
-        check_detector(dut.meta.detector, l, warnings);
-    }
-    check_rbw(dut, warnings);
-}
-
-fn check_detector(scan_det: Option<Detector>, l: &Limit, warnings: &mut Vec<Warning>) {
-    match scan_det {
-        None => warnings.push(Warning {
-            code: "detector-unknown",
-            message: format!("the scan does not state its detector; {} is a {} limit (pass --detector)", l.name, l.detector),
-        }),
-        Some(Detector::Peak) if l.detector != Detector::Peak => warnings.push(Warning {
-            code: "peak-vs-weighted",
-            message: format!(
-                "peak readings judged against the {} limit {}: a pass holds, a failure may still pass when re-measured with the {} detector",
-                l.detector, l.name, l.detector
-            ),
-        }),
-        Some(d) if d != l.detector && weight(d) < weight(l.detector) => warnings.push(Warning {
-            code: "detector-below-limit",
-            message: format!(
-                "{} readings judged against the {} limit {}: {} reads at or below {}, so a pass here does not prove a pass",
-                d, l.detector, l.name, d, l.detector
-            ),
-        }),
-        _ => {}
-    }
-}
-
-/// Detector order for any signal: peak ≥ quasi-peak ≥ average (fact of the trade); rms lies
-/// between quasi-peak and average for impulsive signals (CISPR 16-1-1, from memory).
-fn weight(d: Detector) -> u8 {
-    match d {
-        Detector::Peak => 4,
-        Detector::QuasiPeak => 3,
-        Detector::Rms => 2,
-        Detector::Average => 1,
-        Detector::Sample => 0,
-    }
-}
-
-fn check_rbw(dut: &Scan, warnings: &mut Vec<Warning>) {
-    let (start, stop) = dut.span_hz();
-    let Some(rbw) = dut.meta.rbw_hz else {
-        warnings.push(Warning {
-            code: "rbw-unknown",
-            message: "the scan does not state its RBW (pass --rbw HZ)".into(),
-        });
-        return;
-    };
-    for (a, b, want, band) in CISPR_BANDS {
-        let overlap = start.max(a) < stop.min(b);
-        if overlap && (rbw / want > 1.5 || rbw / want < 1.0 / 1.5) {
-            warnings.push(Warning {
-                code: "rbw-not-cispr",
-                message: format!(
-                    "RBW {} in CISPR 16-1-1 band {band} ({} to {}), which uses {} (6 dB): levels of broadband emissions will differ",
-                    fmt_hz(rbw),
-                    fmt_hz(a),
-                    fmt_hz(b),
-                    fmt_hz(want)
-                ),
-            });
-        }
-    }
-}
-
-fn check_ambient(dut: &Scan, ambient: &[AmbientResult], warnings: &mut Vec<Warning>) {
-    if ambient.is_empty() {
-        warnings.push(Warning {
-            code: "no-ambient",
-            message: "no ambient scan given: peaks cannot be told from the lab's ambient (take a scan with the DUT off and pass --ambient)".into(),
-        });
-        return;
-    }
-    for a in ambient {
-        if let Some(&(s, e, m)) = a.near_limit.iter().min_by(|x, y| x.2.total_cmp(&y.2)) {
-            warnings.push(Warning {
-                code: "ambient-near-limit",
-                message: format!(
-                    "ambient {} comes within {AMBIENT_HEADROOM_DB} dB of the limit in {} range(s), worst {:.1} dB at {} to {}: the DUT cannot be judged there",
-                    a.scan.label(),
-                    a.near_limit.len(),
-                    m,
-                    fmt_hz(s),
-                    fmt_hz(e)
-                ),
-            });
-        }
-        if a.scan.meta.rbw_hz.is_some()
-            && dut.meta.rbw_hz.is_some()
-            && a.scan.meta.rbw_hz != dut.meta.rbw_hz
-        {
-            warnings.push(Warning {
-                code: "ambient-rbw-differs",
-                message: format!("ambient {} was taken with another RBW than the DUT scan; compare like with like", a.scan.label()),
-            });
-        }
-        let (ds, de) = dut.span_hz();
-        let (as_, ae) = a.scan.span_hz();
-        if as_ > ds * (1.0 + 1e-9) || ae < de * (1.0 - 1e-9) {
-            warnings.push(Warning {
-                code: "ambient-span",
-                message: format!(
-                    "ambient {} ({} to {}) does not cover the DUT scan ({} to {})",
-                    a.scan.label(),
-                    fmt_hz(as_),
-                    fmt_hz(ae),
-                    fmt_hz(ds),
-                    fmt_hz(de)
-                ),
-            });
-        }
-    }
-}
-
 /// A frequency for people: `150 kHz`, `1.234 MHz`.
 pub fn fmt_hz(freq_hz: f64) -> String {
     let (v, unit) = if freq_hz >= 1e9 {
@@ -895,7 +741,7 @@ impl Analysis {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::scan::ScanMeta;
+    use crate::scan::{Detector, ScanMeta};
 
     fn scan(levels: &[f64], det: Option<Detector>) -> Scan {
         let f: Vec<f64> = (0..levels.len())
@@ -975,6 +821,22 @@ mod tests {
         s.meta.rbw_hz = Some(100e3);
         let a = analyze(&s, &Context::default()).unwrap();
         assert!(a.warnings.iter().any(|w| w.code == "rbw-not-cispr"));
+    }
+
+    #[test]
+    fn analyze_runs_the_shared_set_up_checks() {
+        // 9 points from 150 kHz to 38 MHz: steps far over RBW/2 (METHODS §9)
+        let a = analyze(
+            &scan(&[40.0, 30.0], Some(Detector::Peak)),
+            &Context::default(),
+        )
+        .unwrap();
+        assert!(a.warnings.iter().any(|w| w.code == "step-coarse"));
+        let mut hot = scan(&[110.0, 30.0], Some(Detector::Peak));
+        hot.meta.rbw_hz = Some(9e3);
+        let a = analyze(&hot, &Context::default()).unwrap();
+        // source: derived, 110 dBµV is above 0 dBm (106.99 dBµV) at the input
+        assert!(a.warnings.iter().any(|w| w.code == "possible-overload"));
     }
 
     fn grid(levels: Vec<f64>) -> Scan {

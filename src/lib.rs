@@ -10,7 +10,11 @@
 //! `families` groups lines into harmonic families and broadcast sets; `ambient` says which are
 //! the lab's; `attribution` names their kind, ranks them and suggests remedies. [`analyze`] runs
 //! every stage in order and returns an [`Analysis`], which `report` renders as text, JSON, CSV or
-//! SVG. `synth` renders analyzer traces from declared sources, for demos and for ground truth.
+//! SVG. [`setup`] holds the set-up checks (RBW, display step, noise floor, overload, detector,
+//! ambient) that `analyze` and the survey both run. [`survey::survey`] takes many ambient sweeps,
+//! associates their emissions into emitters (presence, class, kind, levels, margin) and measures
+//! the headroom under a limit, per band and per sweep. `synth` renders analyzer traces from
+//! declared sources, for demos and for ground truth (`synth::day`: a day of ambient sweeps).
 //!
 //! # Conventions
 //! - Frequencies are in hertz (`freq_hz`), levels in dBµV (or dBµV/m, dBµA as the scan's
@@ -53,7 +57,9 @@ pub mod peaks;
 pub mod prediction;
 pub mod report;
 pub mod scan;
+pub mod setup;
 pub mod sources;
+pub mod survey;
 pub mod synth;
 pub mod units;
 
@@ -80,4 +86,6 @@ pub enum Error {
     Sources(#[from] sources::SourceError),
     #[error(transparent)]
     Sizing(#[from] attribution::sizing::SizingError),
+    #[error(transparent)]
+    Survey(#[from] survey::SurveyError),
 }

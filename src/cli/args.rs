@@ -11,7 +11,7 @@ use std::path::PathBuf;
     long_about = "spurhound reads exported emission scans, corrects them (LISN factor, cable, antenna factor), \
                   judges them against published or user limit lines and says where they fail. Results are \
                   pre-compliance estimates, not a certified measurement.\n\nExit status: 0 within every limit \
-                  (or no limit given), 1 a limit is exceeded, 2 bad input or usage."
+                  (or no limit given), 1 a limit is exceeded (survey: a band cannot be judged), 2 bad input or usage."
 )]
 pub struct Cli {
     /// Say what each file reader skipped and read.
@@ -28,6 +28,9 @@ pub enum Command {
     /// Compare scans of one board before and after a change: which families and failing
     /// frequencies improved.
     Compare(CompareArgs),
+    /// Survey the bench's ambient over many sweeps: emitters, headroom under a limit, the
+    /// quietest time.
+    Survey(SurveyArgs),
     /// List the built-in limits, or show one (table and source).
     Limits(LimitsArgs),
     /// Render an analyzer trace from a scene file of declared sources.
@@ -125,6 +128,44 @@ pub struct CompareArgs {
     /// Write the report to this file instead of standard output.
     #[arg(long, value_name = "FILE")]
     pub out: Option<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+#[command(
+    long_about = "Reads repeated ambient sweeps (DUT off), puts them in time order when they state a \
+                  `# time = ...`, associates their emissions into emitters (persistent, intermittent, \
+                  one-off; broadcast, ISM, lighting hump, comb, other) and measures the headroom under \
+                  the limit per band.\n\nExit status: 0 every band can be judged (or no limit given), \
+                  1 some band cannot be judged, 2 bad input or usage."
+)]
+pub struct SurveyArgs {
+    /// Ambient sweeps: files, folders (their .csv, .tsv and .txt files, by name) or globs such
+    /// as `bench/*.csv` (quoted, so that spurhound expands them).
+    #[arg(required = true, value_name = "FILE|DIR|GLOB")]
+    pub inputs: Vec<String>,
+    /// A built-in limit name (see `spurhound limits`) or a limit file.
+    #[arg(long, value_name = "NAME|FILE")]
+    pub limit: Option<String>,
+    /// A correction table added to every reading; repeatable, applied in order.
+    #[arg(long, value_name = "FILE")]
+    pub transducer: Vec<PathBuf>,
+    /// Headroom asked of the ambient's 95th percentile under the limit, dB.
+    #[arg(long, value_name = "DB", default_value_t = spurhound::setup::AMBIENT_HEADROOM_DB)]
+    pub headroom_db: f64,
+    /// Share of a band's points that must have that headroom for the band to be judged.
+    #[arg(long, value_name = "SHARE", default_value_t = spurhound::survey::MIN_USABLE_FRACTION)]
+    pub usable: f64,
+    #[command(flatten)]
+    pub read: ReadArgs,
+    /// Report format (text or json).
+    #[arg(long, value_enum, default_value_t = FormatArg::Text)]
+    pub format: FormatArg,
+    /// Write the report to this file instead of standard output.
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<PathBuf>,
+    /// Also draw the ambient median and 95th percentile, the limit and the emitters as SVG.
+    #[arg(long, value_name = "FILE.svg")]
+    pub plot: Option<PathBuf>,
 }
 
 #[derive(Debug, Args)]

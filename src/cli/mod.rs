@@ -1,6 +1,7 @@
 //! The command line: the only place that knows clap, prints or exits.
 
 mod args;
+mod survey;
 
 use args::{
     AnalyzeArgs, Cli, Command, CompareArgs, DetectorArg, FormatArg, FreqUnitArg, LevelUnitArg,
@@ -68,6 +69,7 @@ pub fn run() -> ExitCode {
     let result = match &cli.command {
         Command::Analyze(a) => run_analyze(a, cli.verbose),
         Command::Compare(c) => run_compare(c, cli.verbose),
+        Command::Survey(s) => survey::run_survey(s, cli.verbose),
         Command::Limits(l) => run_limits(l),
         Command::Synth(s) => run_synth(s, cli.verbose),
     };

@@ -1,10 +1,13 @@
 //! Renderers of an [`Analysis`]: text for people (80 columns), JSON of the
-//! `spurhound.analysis/1` contract, CSV of the peak table, and an SVG plot.
+//! `spurhound.analysis/1` contract, CSV of the peak table, and an SVG plot; and of an ambient
+//! [`crate::survey::Survey`] ([`survey`], [`survey_svg`]): text, `spurhound.survey/1` JSON, SVG.
 //! The library returns the rendered text; only the CLI writes files or prints.
 
 pub mod compare;
 pub mod csv;
 pub mod model;
+pub mod survey;
+pub mod survey_svg;
 pub mod svg;
 pub mod text;
 

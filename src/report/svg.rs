@@ -168,7 +168,7 @@ fn draw(a: &Analysis, buf: &mut String) -> Result<(), String> {
 }
 
 /// The limit's polyline inside [x0, x1], with its ends interpolated at the plot edges.
-fn clip_limit(vertices: &[(f64, f64)], x0: f64, x1: f64) -> Option<Vec<(f64, f64)>> {
+pub(crate) fn clip_limit(vertices: &[(f64, f64)], x0: f64, x1: f64) -> Option<Vec<(f64, f64)>> {
     let lim = |f: f64| crate::limits::interpolate::log_interp(vertices, f);
     let (first, last) = (vertices.first()?.0, vertices.last()?.0);
     let (a, b) = (x0.max(first), x1.min(last));
@@ -182,7 +182,7 @@ fn clip_limit(vertices: &[(f64, f64)], x0: f64, x1: f64) -> Option<Vec<(f64, f64
 }
 
 /// Axis labels at 1, 2 and 5 times the powers of ten inside [x0, x1].
-fn key_points(x0: f64, x1: f64) -> Vec<f64> {
+pub(crate) fn key_points(x0: f64, x1: f64) -> Vec<f64> {
     let mut out = Vec::new();
     let mut decade = 10f64.powf(x0.log10().floor());
     while decade <= x1 {
@@ -225,20 +225,25 @@ fn level_range(a: &Analysis) -> (f64, f64) {
 
 /// At most [`MAX_DRAWN`] points: the maximum of each equal log-frequency bucket.
 pub fn reduce(scan: &Scan) -> Vec<(f64, f64)> {
-    let n = scan.len();
+    reduce_xy(&scan.freq_hz.to_vec(), &scan.level_dbuv.to_vec())
+}
+
+/// [`reduce`] for a trace given as two slices; NaN levels are left out.
+pub fn reduce_xy(freq_hz: &[f64], level_dbuv: &[f64]) -> Vec<(f64, f64)> {
+    let pts = freq_hz
+        .iter()
+        .copied()
+        .zip(level_dbuv.iter().copied())
+        .filter(|p| p.1.is_finite());
+    let n = freq_hz.len();
     if n <= MAX_DRAWN {
-        return scan
-            .freq_hz
-            .iter()
-            .copied()
-            .zip(scan.level_dbuv.iter().copied())
-            .collect();
+        return pts.collect();
     }
-    let (f0, f1) = scan.span_hz();
+    let (f0, f1) = (freq_hz[0], freq_hz[n - 1]);
     let span = (f1 / f0).ln();
     let mut out: Vec<(f64, f64)> = Vec::with_capacity(MAX_DRAWN);
     let mut bucket = usize::MAX;
-    for (&f, &l) in scan.freq_hz.iter().zip(scan.level_dbuv.iter()) {
+    for (f, l) in pts {
         let b = (((f / f0).ln() / span) * (MAX_DRAWN - 1) as f64) as usize;
         match out.last_mut() {
             Some(last) if b == bucket => {

@@ -30,6 +30,7 @@
 //! # Ok::<(), spurhound::synth::SceneError>(())
 //! ```
 
+pub mod day;
 pub mod detect;
 pub mod random;
 pub mod render;
