@@ -195,19 +195,6 @@ impl Sieve<'_> {
     /// The Poisson-binomial distribution (sum of independent Bernoulli trials with unequal
     /// probabilities), computed by its standard recursion.
     pub fn chance(&self, c: &Candidate) -> f64 {
-        let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
-            return 1.0;
-        };
-        let f0 = c.fundamental_hz;
-        let (lo, hi) = (
-            (f64::from(first.1) - 0.5) * f0,
-            (f64::from(last.1) + 0.5) * f0,
-        );
-        let share = if c.pattern == Pattern::OddOnly {
-            0.5
-        } else {
-            1.0
-        };
         // only lines about as strong as the family's weakest member could stand in for them
         let weakest = c
             .hits
@@ -215,21 +202,10 @@ impl Sieve<'_> {
             .map(|&(i, _)| self.lines[i].strength_db)
             .fold(f64::INFINITY, f64::min);
         let probs: Vec<f64> = self
-            .lines
-            .iter()
-            .enumerate()
-            .filter(|&(i, l)| {
-                self.free[i]
-                    && l.freq_hz >= lo
-                    && l.freq_hz <= hi
-                    && l.width_hz <= MAX_WIDTH_SHARE * f0
-                    && l.strength_db >= weakest - STRENGTH_SLACK_DB
-            })
-            .map(|(_, l)| {
-                let n = (l.freq_hz / f0).round().max(1.0);
-                (2.0 * self.tolerance(l, n, f0, c.sigma_hz) / f0 * share).min(1.0)
-            })
+            .trials(c, weakest - STRENGTH_SLACK_DB)
+            .map(|(_, p)| p)
             .collect();
+        // no hits: P(at least none) = 1
         poisson_binomial_tail(&probs, c.hits.len())
     }
 
@@ -239,14 +215,28 @@ impl Sieve<'_> {
     /// collects many hits in a dense trace by chance alone; its value over this expectation is
     /// what the lines say for it.
     pub fn chance_gain(&self, c: &Candidate) -> f64 {
-        let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
-            return 0.0;
-        };
+        self.trials(c, f64::NEG_INFINITY)
+            .map(|(l, p)| p * l.weight)
+            .sum()
+    }
+
+    /// The trials of the chance test: each free line within the span of the candidate's run
+    /// (half a harmonic beyond its first and last hit), narrow enough to be one harmonic and at
+    /// least `min_strength_db` strong, with the chance `p_i = 2·tol_i/f0` (halved when only odd
+    /// harmonics are predicted) that it lands within tolerance of a predicted harmonic.
+    fn trials<'s>(
+        &'s self,
+        c: &'s Candidate,
+        min_strength_db: f64,
+    ) -> impl Iterator<Item = (&'s Line, f64)> + 's {
         let f0 = c.fundamental_hz;
-        let (lo, hi) = (
-            (f64::from(first.1) - 0.5) * f0,
-            (f64::from(last.1) + 0.5) * f0,
-        );
+        let (lo, hi) = match (c.hits.first(), c.hits.last()) {
+            (Some(first), Some(last)) => (
+                (f64::from(first.1) - 0.5) * f0,
+                (f64::from(last.1) + 0.5) * f0,
+            ),
+            _ => (f64::INFINITY, f64::NEG_INFINITY),
+        };
         let share = if c.pattern == Pattern::OddOnly {
             0.5
         } else {
@@ -255,18 +245,18 @@ impl Sieve<'_> {
         self.lines
             .iter()
             .enumerate()
-            .filter(|&(i, l)| {
+            .filter(move |&(i, l)| {
                 self.free[i]
                     && l.freq_hz >= lo
                     && l.freq_hz <= hi
                     && l.width_hz <= MAX_WIDTH_SHARE * f0
+                    && l.strength_db >= min_strength_db
             })
-            .map(|(_, l)| {
+            .map(move |(_, l)| {
                 let n = (l.freq_hz / f0).round().max(1.0);
                 let p = (2.0 * self.tolerance(l, n, f0, c.sigma_hz) / f0 * share).min(1.0);
-                p * l.weight
+                (l, p)
             })
-            .sum()
     }
 
     /// The run of harmonic slots where the family is alive: slots from the first to the last
