@@ -91,7 +91,11 @@ pub fn render_json(overall: &Step, steps: &[Step]) -> Result<String, RenderError
 }
 
 fn db(v: Option<f64>) -> String {
-    v.map_or("-".to_string(), |x| format!("{x:+.1}"))
+    // rounded first, so that a change of −0.04 dB reads +0.0, not −0.0
+    v.map_or("-".to_string(), |x| {
+        let r = (x * 10.0).round() / 10.0 + 0.0;
+        format!("{r:+.1}")
+    })
 }
 
 fn level(v: Option<f64>) -> String {
