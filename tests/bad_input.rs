@@ -157,3 +157,29 @@ fn inventory_with_an_unknown_key_names_it() {
     );
     assert!(err.contains("tolerance_pct"), "{err}");
 }
+
+/// A negative design margin is refused by its flag's name.
+#[test]
+fn negative_margin_is_refused_by_name() {
+    let out = spurhound(&["analyze", "fixtures/scans/small-fail.csv", "--margin-db=-3"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("--margin-db -3"), "{}", stderr(&out));
+}
+
+/// Scans of different quantities (dBµV against dBµV/m) cannot be compared.
+#[test]
+fn compare_refuses_scans_of_different_quantities() {
+    let text = std::fs::read_to_string("fixtures/scans/small-fail.csv").unwrap();
+    let dir = std::env::temp_dir().join("spurhound-compare-units");
+    std::fs::create_dir_all(&dir).unwrap();
+    let field = dir.join("field.csv");
+    std::fs::write(&field, text.replace("level_dbuv", "level_dbuv/m")).unwrap();
+    let out = spurhound(&[
+        "compare",
+        "fixtures/scans/small-fail.csv",
+        field.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(2), "{}", stderr(&out));
+    let err = stderr(&out);
+    assert!(err.contains("field.csv") && err.contains("dBuV/m"), "{err}");
+}

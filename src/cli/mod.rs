@@ -220,6 +220,12 @@ fn run_analyze(a: &AnalyzeArgs, verbose: bool) -> Result<u8, CliError> {
         .as_deref()
         .map(spurhound::sources::read_inventory_file)
         .transpose()?;
+    if !(a.margin_db.is_finite() && a.margin_db >= 0.0) {
+        return Err(CliError(format!(
+            "--margin-db {}: expected a design margin of 0 dB or more",
+            a.margin_db
+        )));
+    }
     let sizing = spurhound::attribution::sizing::SizingParams {
         design_margin_db: a.margin_db,
         ..Default::default()
@@ -299,6 +305,18 @@ fn run_compare(c: &CompareArgs, verbose: bool) -> Result<u8, CliError> {
         .iter()
         .map(|s| analyze(s, &ctx))
         .collect::<Result<Vec<_>, _>>()?;
+    // a change is only a change between readings of one quantity
+    let first_unit = analyses[0].scan.meta.quantity.unit();
+    for (a, path) in analyses.iter().zip(&c.scans).skip(1) {
+        let unit = a.scan.meta.quantity.unit();
+        if unit != first_unit {
+            return Err(CliError(format!(
+                "{}: measures {unit} but {} measures {first_unit}; compare scans of one quantity (give both the same transducers)",
+                path.display(),
+                c.scans[0].display()
+            )));
+        }
+    }
     let params = spurhound::compare::CompareParams {
         setup_repeat_db: c.repeat_db,
     };
