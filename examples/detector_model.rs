@@ -3,8 +3,9 @@
 //!
 //!     cargo run --release --example detector_model
 //!
-//! Look at the "model − standard" column (the idealised model reads high at low PRF in bands
-//! B and C/D, METHODS.md §3) and at the prediction time at the end.
+//! Look at the "model − standard" column (within the standard's tolerance, ±1 to ±2 dB, at
+//! every PRF; the idealised envelope law of METHODS.md §3 would read 1 to 4 dB high at low
+//! PRF in bands B and C/D) and at the prediction time at the end.
 
 use spurhound::detectors::{
     Band, Evidence, ModelSettings, Profile, Signal, predict, simulate, standard_pulse_response_db,

@@ -21,9 +21,9 @@ const PERIODS_PER_DWELL: f64 = 2.0;
 /// Worst-case time for the QP and AV readings to come within 0.1 dB of their settled values,
 /// measuring from rest, s, bands A, B, C/D: the time-domain model's longest settling over
 /// impulse trains of 1 Hz to 4·B_imp (16 PRFs a decade), tuned CW, and tuned bursts of 1 to
-/// 50 Hz at duties of 0.1 % to 50 %, rounded up to 0.1 s. The model found 2.57 s (band A,
-/// pulses at 1.3 Hz), 1.54 s (band B, 1 Hz bursts at 50 %) and 2.72 s (band C/D, pulses at
-/// 2.4 Hz); a release-mode test repeats the search.
+/// 50 Hz at duties of 0.1 % to 50 %, rounded up to 0.1 s. The model (carrier diode law) found
+/// 2.37 s in band A, 1.54 s in band B and 2.50 s in band C/D, at pulse rates of a few hertz
+/// and slow bursts; a release-mode test repeats the search.
 ///
 /// # Source
 /// Derived with [`super::simulate_dwell`] from the CISPR 16-1-1 time constants (METHODS.md §2).
@@ -31,7 +31,7 @@ const PERIODS_PER_DWELL: f64 = 2.0;
 /// τd (0.5 s in band A, 0.55 s in C/D), so it takes several τd to build up, beyond the meter's
 /// 6.6·T_L. METHODS.md §9 reports a worst-case settling about 70 % above 1 s (source S41),
 /// in line with band B's 1.54 s.
-const QP_SETTLING_S: [f64; 3] = [2.6, 1.6, 2.8];
+const QP_SETTLING_S: [f64; 3] = [2.4, 1.6, 2.6];
 
 /// Time for the band's slower meter (QP or AV) to settle within 1 % (0.09 dB) of a step, s:
 /// `6.638·T_L` (band A and B: 1.06 s; C/D: 0.66 s). A lower bound of [`qp_settling_s`].
@@ -43,7 +43,7 @@ pub fn meter_settling_s(band: Band) -> f64 {
 }
 
 /// Worst-case settling of the QP and AV readings to 0.1 dB, s (see `QP_SETTLING_S`):
-/// 2.6 s in band A, 1.6 s in band B, 2.8 s in band C/D.
+/// 2.4 s in band A, 1.6 s in band B, 2.6 s in band C/D.
 pub fn qp_settling_s(band: Band) -> f64 {
     match band {
         Band::A => QP_SETTLING_S[0],
@@ -58,7 +58,7 @@ pub fn qp_settling_s(band: Band) -> f64 {
 /// ```text
 /// dwell = max(1 s, t_settle, 2/f_slow)      f_slow: slowest repetition, when known
 /// ```
-/// t_settle from [`qp_settling_s`] (2.6, 1.6, 2.8 s in bands A, B, C/D); two periods of a
+/// t_settle from [`qp_settling_s`] (2.4, 1.6, 2.6 s in bands A, B, C/D); two periods of a
 /// repetition slower than that are added for signals known to repeat slowly.
 /// # Source
 /// 1 s for unknown signals: METHODS.md §9 (source S7); t_settle derived from the time
@@ -191,7 +191,7 @@ mod tests {
         }
         assert!((dwell_s(Band::B, None).unwrap() - 1.6).abs() < 1e-12);
         assert!((dwell_s(Band::B, Some(0.5)).unwrap() - 4.0).abs() < 1e-12);
-        assert!((dwell_s(Band::CD, Some(100.0)).unwrap() - 2.8).abs() < 1e-12);
+        assert!((dwell_s(Band::CD, Some(100.0)).unwrap() - 2.6).abs() < 1e-12);
         assert!(dwell_s(Band::B, Some(0.0)).is_err());
         // source: derived, 6.638·T_L: 1.062 s for T_L = 160 ms
         assert!((meter_settling_s(Band::B) - 1.0621).abs() < 1e-3);

@@ -48,7 +48,7 @@ impl Basis {
         match self {
             Basis::Cw => "CW: QP = AV = peak (METHODS.md §2)",
             Basis::PulseResponse => {
-                "impulsive: midway between the idealised model and the CISPR 16-1-1 pulse \
+                "impulsive: midway between the time-domain model and the CISPR 16-1-1 pulse \
                  response [from memory], their gap and the standard's tolerance as uncertainty"
             }
             Basis::DitherTable => {
@@ -93,8 +93,8 @@ const AV_UNCERTAINTY_DB: f64 = 1.0;
 ///   ([`super::impulse_response`]) and the standard's curve
 ///   ([`super::standard_pulse_response_db`], anchored at the reference impulse), ± the
 ///   standard's tolerance ([`super::standard_tolerance_db`], ±1 to ±2 dB, METHODS.md §3
-///   [from memory]) plus half their gap (the model reads 1 to 4 dB above the standard at
-///   low PRF, METHODS.md §3). AV − PK from the model table (`≈ 20·log10(PRF/B_imp)`,
+///   [from memory]) plus half their gap (within 1 dB at most PRFs, up to 1.9 dB in band
+///   C/D at 1 Hz, [`super::ChargeLaw::Carrier`]). AV − PK from the model table (`≈ 20·log10(PRF/B_imp)`,
 ///   METHODS.md §3, derived) ±1 dB. From `4·B_imp` up the comb's lines are resolved: a CW.
 /// - [`Evidence::Dithered`]: the dither table ([`super::dither_response`]), the maximum over
 ///   the sweep; an unknown rate or profile spans the table's rates (1 Hz to `B_imp/10`) and
