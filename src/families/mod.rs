@@ -88,6 +88,73 @@ fn centre_hz(scan: &Scan, peaks: &[FoundPeak], p: &FoundPeak) -> f64 {
     }
 }
 
+/// The fundamental of a dithered family, with each member's frequency uncertainty taken from
+/// the family's measured spread: `None` when fewer than two members are plateaus (wider than
+/// 1.3 line widths), so no spread is measured, or when the spread is under three line widths at
+/// the highest harmonic (the lines' own σ then dominates).
+///
+/// # Method
+/// The fractional spread is the median over the plateau members of
+/// `s = (W − line)/(n·f0)` (a dithered harmonic's plateau grows as n·s·f0). A member whose
+/// extent covers at least half of its expected plateau keeps its σ (its centre is placed from
+/// both edges). A narrower member of such a family is a fluctuation on its harmonic's plateau,
+/// whose top falls anywhere on it: its position is uniform over the plateau,
+/// `σ = n·s·f0/√12`, unless its own σ is larger. Then the weighted least-squares fit
+/// ([`refine::fit`]) runs again on the same members.
+///
+/// # Source
+/// The plateau growth with n follows from frequency modulation of every harmonic by the same
+/// relative deviation (METHODS.md §9, spread spectrum); the standard deviation of a uniform
+/// distribution of width W is W/√12 (any statistics text).
+fn dithered_refit(
+    hits: &[(usize, u32)],
+    lines: &[Line],
+    line_of: impl Fn(usize) -> f64,
+) -> Option<(f64, f64)> {
+    let f0 = {
+        let members: Vec<refine::Member> = hits
+            .iter()
+            .map(|&(i, n)| refine::Member {
+                n,
+                freq_hz: lines[i].freq_hz,
+                sigma_hz: lines[i].sigma_hz,
+            })
+            .collect();
+        refine::fit(&members)?.fundamental_hz
+    };
+    let mut spreads: Vec<f64> = hits
+        .iter()
+        .filter(|&&(i, _)| lines[i].width_hz > 1.3 * line_of(i))
+        .map(|&(i, n)| (lines[i].width_hz - line_of(i)) / (f64::from(n) * f0))
+        .collect();
+    if spreads.len() < 2 {
+        return None;
+    }
+    let s = crate::floor::quantile_in_place(&mut spreads, 0.5);
+    let top = hits.iter().map(|&(_, n)| n).max()?;
+    let top_line = hits.iter().map(|&(i, _)| line_of(i)).fold(0.0, f64::max);
+    if f64::from(top) * s * f0 < 3.0 * top_line {
+        return None;
+    }
+    let members: Vec<refine::Member> = hits
+        .iter()
+        .map(|&(i, n)| {
+            let plateau = f64::from(n) * s * f0;
+            let whole = lines[i].width_hz - line_of(i) >= 0.5 * plateau;
+            refine::Member {
+                n,
+                freq_hz: lines[i].freq_hz,
+                sigma_hz: if whole {
+                    lines[i].sigma_hz
+                } else {
+                    lines[i].sigma_hz.max(plateau / 12f64.sqrt())
+                },
+            }
+        })
+        .collect();
+    refine::fit(&members).map(|f| (f.fundamental_hz, f.sigma_hz))
+}
+
 /// Frequency intervals where the trace is over its detection threshold.
 fn occupied(scan: &Scan, floor: &Floor) -> Vec<(f64, f64)> {
     let mut out: Vec<(f64, f64)> = Vec::new();
@@ -194,16 +261,11 @@ pub fn find_families(
     let mut out: Vec<FamilyFit> = found
         .into_iter()
         .map(|c| {
+            let line_of = |i: usize| line_width_hz(scan, peaks, peaks[i].index);
+            let (f0, sigma) = dithered_refit(&c.hits, &lines, line_of)
+                .unwrap_or((c.fundamental_hz, c.reported_sigma_hz));
             fit_of(
-                scan,
-                peaks,
-                &widths,
-                c.fundamental_hz,
-                c.reported_sigma_hz,
-                c.pattern,
-                c.hits,
-                c.misses,
-                None,
+                scan, peaks, &widths, f0, sigma, c.pattern, c.hits, c.misses, None,
             )
         })
         .collect();
@@ -430,6 +492,50 @@ fn fit_of(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_dithered_familys_narrow_member_counts_as_anywhere_on_its_plateau() {
+        // source: derived; a 1.15 MHz converter dithered over 4 % (every harmonic spread over
+        // n·46 kHz, METHODS.md §9), plateaus at n = 1-3 centred on n·f0 with the σ of a
+        // plateau centre, and a fluctuation on the 8th harmonic's 368 kHz plateau, 147 kHz
+        // from its centre, measured like a line (σ 1.3 kHz). Plain weighted least squares
+        // believes that one member; with its position uniform over its plateau
+        // (σ = W/√12, the uniform distribution's standard deviation) the fit lies within its σ
+        let (f0, spread, line) = (1.15e6, 0.04, 13.5e3);
+        let plateau = |n: u32| {
+            let w = f64::from(n) * f0 * spread + line;
+            Line {
+                freq_hz: f64::from(n) * f0,
+                sigma_hz: 0.05 * w + 0.25 * line,
+                weight: 1.5,
+                strength_db: 10.0,
+                width_hz: w,
+            }
+        };
+        let mut lines: Vec<Line> = (1..=3).map(plateau).collect();
+        lines.push(Line {
+            freq_hz: 8.0 * f0 + 0.4 * 8.0 * f0 * spread,
+            sigma_hz: 1.3e3,
+            weight: 1.5,
+            strength_db: 10.0,
+            width_hz: 1.2 * line,
+        });
+        let hits = [(0, 1), (1, 2), (2, 3), (3, 8)];
+        let plain: Vec<refine::Member> = hits
+            .iter()
+            .map(|&(i, n)| refine::Member {
+                n,
+                freq_hz: lines[i].freq_hz,
+                sigma_hz: lines[i].sigma_hz,
+            })
+            .collect();
+        let p = refine::fit(&plain).unwrap();
+        assert!((p.fundamental_hz - f0).abs() > 3.0 * p.sigma_hz, "{p:?}");
+        let (est, sigma) = dithered_refit(&hits, &lines, |_| line).unwrap();
+        assert!((est - f0).abs() < sigma, "{est} ± {sigma}");
+        // with one plateau only the spread is not measured: no change
+        assert_eq!(dithered_refit(&hits[2..], &lines, |_| line), None);
+    }
 
     fn comb(f0: f64, ns: std::ops::RangeInclusive<u32>, width_hz: f64) -> Vec<Line> {
         ns.map(|n| Line {
