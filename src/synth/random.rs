@@ -1417,6 +1417,10 @@ pub struct CaseScore {
     pub reported_matched: usize,
     /// |f0_est − f0|/f0 of every matched pair.
     pub f0_rel_errors: Vec<f64>,
+    /// Matched pairs of a switching or clock family with a stated σ.
+    pub sigma_stated: usize,
+    /// Of those, the truth within two stated σ of the estimate.
+    pub sigma_covered: usize,
     /// Matched pairs (any reported family, any truth family in the DUT scene).
     pub matched: usize,
     /// Matched pairs whose origin equals the truth's (Dut or Ambient).
@@ -1516,6 +1520,14 @@ fn score_reports(
         };
         sc.matched += 1;
         sc.f0_rel_errors.push(err);
+        if r.fundamental_sigma_hz > 0.0 && matches!(t.kind, Kind::Switching | Kind::Clock) {
+            sc.sigma_stated += 1;
+            let off = std::iter::once(t.f0_hz)
+                .chain(t.accept_f0_hz.iter().copied())
+                .map(|f| (r.fundamental_hz - f).abs())
+                .fold(f64::INFINITY, f64::min);
+            sc.sigma_covered += usize::from(off <= 2.0 * r.fundamental_sigma_hz);
+        }
         sc.origin_ok += usize::from(r.origin == t.origin);
         sc.kind_ok += usize::from(r.kind == t.kind);
     }
@@ -1623,6 +1635,8 @@ impl Totals {
         t.reported += s.reported;
         t.reported_matched += s.reported_matched;
         t.f0_rel_errors.extend_from_slice(&s.f0_rel_errors);
+        t.sigma_stated += s.sigma_stated;
+        t.sigma_covered += s.sigma_covered;
         t.matched += s.matched;
         t.origin_ok += s.origin_ok;
         t.kind_ok += s.kind_ok;
@@ -1657,6 +1671,7 @@ impl Totals {
             family_recall_strong: ratio(t.recalled_strong, t.eligible_strong),
             family_precision: ratio(t.reported_matched, t.reported),
             median_f0_rel_error: median,
+            sigma_coverage: ratio(t.sigma_covered, t.sigma_stated),
             peak_recall: ratio(t.lines_found, t.lines),
             origin_accuracy: ratio(t.origin_ok, t.matched),
             kind_accuracy: ratio(t.kind_ok, t.matched),
@@ -1708,6 +1723,9 @@ pub struct Summary {
     pub family_precision: Option<f64>,
     /// Median |f0_est − f0|/f0 over matched pairs.
     pub median_f0_rel_error: Option<f64>,
+    /// Matched converter and clock families whose truth lies within two stated σ of the
+    /// estimate / those matched: about 0.95 when the σ are honest (normal errors).
+    pub sigma_coverage: Option<f64>,
     /// Strong truth lines found as peaks / strong truth lines.
     pub peak_recall: Option<f64>,
     /// Matched pairs with the right origin / matched pairs.
