@@ -25,6 +25,13 @@ pub struct Line {
 /// the candidate's weakest member: a crowd of weak lines cannot stand in for a few strong ones.
 pub const STRENGTH_SLACK_DB: f64 = 3.0;
 
+/// Largest divisor k of a found fundamental whose f0/k is tried as the true fundamental
+/// ([`Sieve::best_sub_multiple`]).
+pub const MAX_SUB_MULTIPLE: u32 = 6;
+
+/// Share of a candidate's lines that its sub-multiple must keep to compete with it.
+pub const SUB_MULTIPLE_KEEPS: f64 = 0.8;
+
 /// Widest emission, as a share of the fundamental, that can be one harmonic.
 pub const MAX_WIDTH_SHARE: f64 = 0.7;
 
@@ -406,6 +413,59 @@ impl Sieve<'_> {
         best
     }
 
+    /// The candidate or one of its sub-multiples f0/k (k = 2 … [`MAX_SUB_MULTIPLE`]), whichever
+    /// has the larger excess over chance. A fundamental taken from a strong line over a small
+    /// divisor is rough, and on a coarse grid the rough score of the true fundamental (many
+    /// harmonics, each within a wide tolerance) can rank it out of the refined few; the
+    /// candidate found at k·f0 then explains only every k-th harmonic. Each f0/k is refined
+    /// from the candidate's own refined fundamental (uncertainty σ/k), so it is judged by the
+    /// lines it explains, the harmonics it predicts that are clearly absent (each costs the
+    /// miss penalty) and the gain chance would give its denser grid: the likelihood comparison
+    /// of the two hypotheses that the sieve's score stands for.
+    ///
+    /// The two hypotheses must be about the same lines: f0/k replaces the candidate only when
+    /// it keeps at least [`SUB_MULTIPLE_KEEPS`] of the candidate's lines, passes the chance test,
+    /// and sees at least `min_hit_ratio` of the harmonics it predicts (the acceptance of a
+    /// family; a lower fundamental that gathers a crowd of lines around the candidate's with
+    /// absent harmonics between them is no family).
+    ///
+    /// # Source
+    /// The sub-multiple (octave) check of harmonic-sieve pitch estimation: every divisor of the
+    /// best fundamental is a competing hypothesis, scored by the same measure.
+    pub fn best_sub_multiple(&self, c: Candidate, min_hit_ratio: f64) -> Candidate {
+        let mut best = c.clone();
+        for k in 2..=MAX_SUB_MULTIPLE {
+            let kf = f64::from(k);
+            let f0 = c.fundamental_hz / kf;
+            if f0 < self.min_fundamental_hz {
+                break;
+            }
+            let sigma = c.reported_sigma_hz.max(c.sigma_hz * 1e-3) / kf;
+            for pattern in [Pattern::All, Pattern::OddOnly] {
+                let sub = self.refined(f0, sigma, pattern);
+                if better(&sub, &best) && self.explains(&sub, &c, min_hit_ratio) {
+                    best = sub;
+                }
+            }
+        }
+        best
+    }
+
+    /// Whether `sub` (a sub-multiple of `c`) keeps at least [`SUB_MULTIPLE_KEEPS`] of the lines
+    /// of `c`, sees at least `min_hit_ratio` of its predicted harmonics and passes the chance
+    /// test.
+    fn explains(&self, sub: &Candidate, c: &Candidate, min_hit_ratio: f64) -> bool {
+        let kept = c
+            .hits
+            .iter()
+            .filter(|h| sub.hits.iter().any(|s| s.0 == h.0))
+            .count();
+        let seen = sub.hits.len() as f64;
+        kept as f64 >= SUB_MULTIPLE_KEEPS * c.hits.len() as f64
+            && seen >= min_hit_ratio * (seen + sub.misses as f64)
+            && self.chance(sub) < self.params.max_chance
+    }
+
     /// The prefix of the hits (at least three) with the smallest chance, when that chance is
     /// below the limit; `None` otherwise or for long runs (a long run that fails is no family).
     fn least_chance_prefix(&self, c: &Candidate) -> Option<Candidate> {
@@ -665,6 +725,46 @@ mod tests {
         let refined = s.refined(115_674.4, 5.0, Pattern::All);
         assert!(refined.excess >= start.excess - 1e-9);
         assert!((refined.fundamental_hz / 115_674.4 - 1.0).abs() < 1e-5);
+    }
+
+    /// A 4 MHz clock (a standard crystal value, METHODS.md §10) seen on a 1001-point
+    /// 30 MHz-1 GHz grid (step 970 kHz: a line is placed within ±step/2, σ = step/√12 ≈
+    /// 280 kHz), every harmonic 8-240 present. A candidate found at 8 MHz explains every other
+    /// line only; its sub-multiple 4 MHz explains them all and wins. A true 8 MHz comb keeps its
+    /// fundamental: 4 MHz would predict an absent harmonic between every pair of its lines.
+    #[test]
+    fn a_fundamental_found_at_a_multiple_falls_to_the_true_one() {
+        let f0 = 4_000_039.0;
+        let f: Vec<f64> = (8..=240).map(|n| f0 * f64::from(n)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let at_8 = s.refined(2.0 * f0, 50.0, Pattern::All);
+        assert!((at_8.fundamental_hz / (2.0 * f0) - 1.0).abs() < 1e-4);
+        let c = s.best_sub_multiple(at_8, 0.6);
+        assert!(
+            (c.fundamental_hz / f0 - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
+        assert_eq!(c.pattern, Pattern::All);
+
+        let f: Vec<f64> = (4..=120).map(|n| 2.0 * f0 * f64::from(n)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let c = s.best_sub_multiple(s.refined(2.0 * f0, 50.0, Pattern::All), 0.6);
+        assert!(
+            (c.fundamental_hz / (2.0 * f0) - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
     }
 
     #[test]
