@@ -448,7 +448,42 @@ impl Sieve<'_> {
                 }
             }
         }
+        for (f0, sigma) in self.odd_comb_seeds(&c) {
+            let sub = self.refined(f0, sigma, Pattern::OddOnly);
+            if better(&sub, &best) && self.explains(&sub, &c, min_hit_ratio) {
+                best = sub;
+            }
+        }
         best
+    }
+
+    /// Fundamentals of an odd-only comb that a candidate for every harmonic may stand for.
+    /// The odd harmonics (2m + 1)·f of a square-ish clock lie 2·f apart; seen far above the
+    /// fundamental (a clock's 60th to 80th harmonics on a radiated scan) they fit a comb
+    /// through the origin at F ≈ 2·f·(1 + 1/(2m)) with consecutive numbers, and F/2 is no
+    /// harmonic of theirs. The candidate's middle member (frequency g, number n) then is
+    /// harmonic 2n − 1 or 2n + 1 of the odd comb.
+    ///
+    /// # Formula
+    /// ```text
+    /// f = g / (2n ± 1),  σ(f) = σ(g) / (2n ± 1)
+    /// ```
+    fn odd_comb_seeds(&self, c: &Candidate) -> Vec<(f64, f64)> {
+        if c.pattern != Pattern::All {
+            return Vec::new();
+        }
+        let Some(&(i, n)) = c.hits.get(c.hits.len() / 2) else {
+            return Vec::new();
+        };
+        let Some(l) = self.lines.get(i) else {
+            return Vec::new();
+        };
+        let n = f64::from(n);
+        [2.0 * n - 1.0, 2.0 * n + 1.0]
+            .into_iter()
+            .map(|m| (l.freq_hz / m, l.sigma_hz / m))
+            .filter(|&(f0, _)| f0 >= self.min_fundamental_hz)
+            .collect()
     }
 
     /// Whether `sub` (a sub-multiple of `c`) keeps at least [`SUB_MULTIPLE_KEEPS`] of the lines
@@ -765,6 +800,35 @@ mod tests {
             "{}",
             c.fundamental_hz
         );
+    }
+
+    /// The odd harmonics 59-83 of a 12 MHz clock (a standard crystal value, METHODS.md §10;
+    /// a 50 % duty has no even harmonics, METHODS.md §5) on a 601-point 30 MHz-1 GHz grid
+    /// (step 1.62 MHz, σ = step/√12 ≈ 467 kHz). Through the origin they fit a comb at
+    /// 2·12 MHz·(1 + 1/70) ≈ 24.34 MHz with consecutive numbers 29-41 (harmonic 2m + 1 of
+    /// 12 MHz taken for harmonic m), whose half is no harmonic of theirs; the odd comb at
+    /// 12 MHz explains the same lines and wins.
+    #[test]
+    fn an_odd_comb_seen_far_up_is_not_a_comb_at_twice_its_fundamental() {
+        let f0 = 11_999_718.9;
+        let f: Vec<f64> = (29..=41).map(|m| f0 * f64::from(2 * m + 1)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 467e3;
+            line.width_hz = 1.8e6;
+        }
+        let s = sieve(&l, &[]);
+        let shifted = s.refined(24.34e6, 20e3, Pattern::All);
+        assert!(shifted.hits.len() >= 10, "{:?}", shifted.hits);
+        assert!((shifted.fundamental_hz / (2.0 * f0) - 1.0).abs() > 3e-3);
+        let c = s.best_sub_multiple(shifted, 0.6);
+        assert_eq!(c.pattern, Pattern::OddOnly);
+        assert!(
+            (c.fundamental_hz / f0 - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
+        assert_eq!(c.hits.len(), 13);
     }
 
     #[test]
