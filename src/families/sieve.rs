@@ -486,6 +486,76 @@ impl Sieve<'_> {
             .collect()
     }
 
+    /// Two oscillators at a·F and b·F (a, b coprime, 2 … [`MAX_SUB_MULTIPLE`]) that a
+    /// candidate at their common divisor F explains as one: two clocks at 32 and 48 MHz fill
+    /// the even harmonics and the multiples of three of 16 MHz, and the harmonics of F that are
+    /// neither (16·5, 16·7, …) are clearly absent. Both hypotheses explain about the same lines;
+    /// they differ in the harmonics they predict, so in the misses they are charged. The pair
+    /// replaces F when each of the two passes the chance test and the family's hit ratio,
+    /// together they keep [`SUB_MULTIPLE_KEEPS`] of the candidate's lines, and their summed
+    /// excess over chance beats the candidate's by more than `family_cost` (the least value a
+    /// family must reach: the price of the second oscillator). Returns the stronger of the two;
+    /// the other's lines stay free for the next round.
+    ///
+    /// # Formula
+    /// ```text
+    /// split  ⇔  E(a·F) + E(b·F) > E(F) + v_min,   E = Σ w_hits − λ·misses − chance gain
+    /// ```
+    /// # Source
+    /// A likelihood-ratio comparison of nested hypotheses with a fixed price per added
+    /// component (the sieve's score is its log-likelihood proxy); the price is the acceptance
+    /// value of one family, not a tuned constant.
+    pub fn split_common_divisor(
+        &self,
+        c: &Candidate,
+        min_hit_ratio: f64,
+        family_cost: f64,
+    ) -> Option<Candidate> {
+        if c.pattern != Pattern::All || c.hits.len() < 6 {
+            return None;
+        }
+        let sigma = c.reported_sigma_hz.max(c.sigma_hz * 1e-3);
+        let multiples: Vec<Option<Candidate>> = (2..=MAX_SUB_MULTIPLE)
+            .map(|a| {
+                let af = f64::from(a);
+                let m = self.refined(af * c.fundamental_hz, af * sigma, Pattern::All);
+                let seen = m.hits.len() as f64;
+                (m.hits.len() >= 3
+                    && seen >= min_hit_ratio * (seen + m.misses as f64)
+                    && self.chance(&m) < self.params.max_chance)
+                    .then_some(m)
+            })
+            .collect();
+        let mut best: Option<(f64, Candidate)> = None;
+        for a in 2..=MAX_SUB_MULTIPLE {
+            for b in a + 1..=MAX_SUB_MULTIPLE {
+                if gcd(a, b) != 1 {
+                    continue;
+                }
+                let (Some(Some(ma)), Some(Some(mb))) = (
+                    multiples.get((a - 2) as usize),
+                    multiples.get((b - 2) as usize),
+                ) else {
+                    continue;
+                };
+                let kept = c
+                    .hits
+                    .iter()
+                    .filter(|h| ma.hits.iter().chain(&mb.hits).any(|s| s.0 == h.0))
+                    .count();
+                let gain = ma.excess + mb.excess - c.excess - family_cost;
+                if (kept as f64) < SUB_MULTIPLE_KEEPS * c.hits.len() as f64 || gain <= 0.0 {
+                    continue;
+                }
+                if best.as_ref().is_none_or(|b| gain > b.0) {
+                    let stronger = if better(ma, mb) { ma } else { mb };
+                    best = Some((gain, stronger.clone()));
+                }
+            }
+        }
+        best.map(|b| b.1)
+    }
+
     /// Whether `sub` (a sub-multiple of `c`) keeps at least [`SUB_MULTIPLE_KEEPS`] of the lines
     /// of `c`, sees at least `min_hit_ratio` of its predicted harmonics and passes the chance
     /// test.
@@ -526,6 +596,11 @@ impl Sieve<'_> {
         }
         best.filter(|b| b.0 < self.params.max_chance).map(|b| b.1)
     }
+}
+
+/// Greatest common divisor (Euclid).
+fn gcd(a: u32, b: u32) -> u32 {
+    if b == 0 { a } else { gcd(b, a % b) }
 }
 
 /// P(at least `h` successes) for independent trials with success probabilities `probs`.
@@ -829,6 +904,46 @@ mod tests {
             c.fundamental_hz
         );
         assert_eq!(c.hits.len(), 13);
+    }
+
+    /// Clocks at 32 and 48 MHz (standard crystal values, METHODS.md §10), harmonics up to
+    /// 1 GHz (a radiated scan), σ = 280 kHz: a candidate at their common divisor 16 MHz
+    /// explains every line, but predicts the harmonics 5, 7, 11, … of 16 MHz, which are clearly
+    /// absent; the pair explains the same lines without them and replaces it. A 16 MHz clock
+    /// with every harmonic present stays one family.
+    #[test]
+    fn two_clocks_are_not_one_at_their_common_divisor() {
+        let mut f: Vec<f64> = (1..=31).map(|n| 32e6 * f64::from(n)).collect();
+        f.extend((1..=20).map(|n| 48e6 * f64::from(n)));
+        f.retain(|&x| x > 30e6 && x < 1e9);
+        f.sort_by(f64::total_cmp);
+        f.dedup();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let common = s.refined(16e6, 50.0, Pattern::All);
+        assert!(common.hits.len() >= f.len() - 1, "{:?}", common.hits);
+        let (v_min, ratio) = (2.5, 0.6); // FamilyParams::default()
+        let part = s.split_common_divisor(&common, ratio, v_min).unwrap();
+        assert!(
+            (part.fundamental_hz / 32e6 - 1.0).abs() < 1e-4
+                || (part.fundamental_hz / 48e6 - 1.0).abs() < 1e-4,
+            "{}",
+            part.fundamental_hz
+        );
+
+        let f: Vec<f64> = (2..=62).map(|n| 16e6 * f64::from(n)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let one = s.refined(16e6, 50.0, Pattern::All);
+        assert!(s.split_common_divisor(&one, ratio, v_min).is_none());
     }
 
     #[test]
