@@ -26,7 +26,8 @@ pub struct Line {
 pub const STRENGTH_SLACK_DB: f64 = 3.0;
 
 /// Largest divisor k of a found fundamental whose f0/k is tried as the true fundamental
-/// ([`Sieve::best_sub_multiple`]).
+/// ([`Sieve::best_sub_multiple`]), and largest multiple tried as one of a pair of combs
+/// ([`Sieve::split_common_divisor`]).
 pub const MAX_SUB_MULTIPLE: u32 = 6;
 
 /// Share of a candidate's lines that its sub-multiple must keep to compete with it.
@@ -427,8 +428,13 @@ impl Sieve<'_> {
     /// it keeps at least [`SUB_MULTIPLE_KEEPS`] of the candidate's lines, passes the chance test,
     /// and sees at least `min_hit_ratio` of the harmonics it predicts (the acceptance of a
     /// family; a lower fundamental that gathers a crowd of lines around the candidate's with
-    /// absent harmonics between them is no family).
+    /// absent harmonics between them is no family). The odd comb an every-harmonic candidate
+    /// may stand for ([`Sieve::odd_comb_seeds`]) competes the same way.
     ///
+    /// # Formula
+    /// ```text
+    /// E = Σ w_hits − λ·misses − Σ_lines w_i·p_i   (the candidate's `excess`; larger wins)
+    /// ```
     /// # Source
     /// The sub-multiple (octave) check of harmonic-sieve pitch estimation: every divisor of the
     /// best fundamental is a competing hypothesis, scored by the same measure.
