@@ -242,7 +242,11 @@ pub fn find_families(
     let mut rounds = 0;
     while found.len() < params.max_families && rounds < 4 * params.max_families {
         rounds += 1;
-        let Some(mut c) = sieve.best() else { break };
+        let Some(c) = sieve.best() else { break };
+        let c = sieve.best_sub_multiple(c, params.min_hit_ratio);
+        let mut c = sieve
+            .split_common_divisor(&c, params.min_hit_ratio, params.min_value)
+            .unwrap_or(c);
         let seen = c.hits.len();
         let ratio = seen as f64 / (seen + c.misses) as f64;
         if seen < params.min_harmonics || c.value < params.min_value || ratio < params.min_hit_ratio

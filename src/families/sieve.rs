@@ -25,6 +25,14 @@ pub struct Line {
 /// the candidate's weakest member: a crowd of weak lines cannot stand in for a few strong ones.
 pub const STRENGTH_SLACK_DB: f64 = 3.0;
 
+/// Largest divisor k of a found fundamental whose f0/k is tried as the true fundamental
+/// ([`Sieve::best_sub_multiple`]), and largest multiple tried as one of a pair of combs
+/// ([`Sieve::split_common_divisor`]).
+pub const MAX_SUB_MULTIPLE: u32 = 6;
+
+/// Share of a candidate's lines that its sub-multiple must keep to compete with it.
+pub const SUB_MULTIPLE_KEEPS: f64 = 0.8;
+
 /// Widest emission, as a share of the fundamental, that can be one harmonic.
 pub const MAX_WIDTH_SHARE: f64 = 0.7;
 
@@ -406,6 +414,169 @@ impl Sieve<'_> {
         best
     }
 
+    /// The candidate or one of its sub-multiples f0/k (k = 2 … [`MAX_SUB_MULTIPLE`]), whichever
+    /// has the larger excess over chance. A fundamental taken from a strong line over a small
+    /// divisor is rough, and on a coarse grid the rough score of the true fundamental (many
+    /// harmonics, each within a wide tolerance) can rank it out of the refined few; the
+    /// candidate found at k·f0 then explains only every k-th harmonic. Each f0/k is refined
+    /// from the candidate's own refined fundamental (uncertainty σ/k), so it is judged by the
+    /// lines it explains, the harmonics it predicts that are clearly absent (each costs the
+    /// miss penalty) and the gain chance would give its denser grid: the likelihood comparison
+    /// of the two hypotheses that the sieve's score stands for.
+    ///
+    /// The two hypotheses must be about the same lines: f0/k replaces the candidate only when
+    /// it keeps at least [`SUB_MULTIPLE_KEEPS`] of the candidate's lines, passes the chance test,
+    /// and sees at least `min_hit_ratio` of the harmonics it predicts (the acceptance of a
+    /// family; a lower fundamental that gathers a crowd of lines around the candidate's with
+    /// absent harmonics between them is no family). The odd comb an every-harmonic candidate
+    /// may stand for ([`Sieve::odd_comb_seeds`]) competes the same way.
+    ///
+    /// # Formula
+    /// ```text
+    /// E = Σ w_hits − λ·misses − Σ_lines w_i·p_i   (the candidate's `excess`; larger wins)
+    /// ```
+    /// # Source
+    /// The sub-multiple (octave) check of harmonic-sieve pitch estimation: every divisor of the
+    /// best fundamental is a competing hypothesis, scored by the same measure.
+    pub fn best_sub_multiple(&self, c: Candidate, min_hit_ratio: f64) -> Candidate {
+        let mut best = c.clone();
+        for k in 2..=MAX_SUB_MULTIPLE {
+            let kf = f64::from(k);
+            let f0 = c.fundamental_hz / kf;
+            if f0 < self.min_fundamental_hz {
+                break;
+            }
+            let sigma = c.reported_sigma_hz.max(c.sigma_hz * 1e-3) / kf;
+            for pattern in [Pattern::All, Pattern::OddOnly] {
+                let sub = self.refined(f0, sigma, pattern);
+                if better(&sub, &best) && self.explains(&sub, &c, min_hit_ratio) {
+                    best = sub;
+                }
+            }
+        }
+        for (f0, sigma) in self.odd_comb_seeds(&c) {
+            let sub = self.refined(f0, sigma, Pattern::OddOnly);
+            if better(&sub, &best) && self.explains(&sub, &c, min_hit_ratio) {
+                best = sub;
+            }
+        }
+        best
+    }
+
+    /// Fundamentals of an odd-only comb that a candidate for every harmonic may stand for.
+    /// The odd harmonics (2m + 1)·f of a square-ish clock lie 2·f apart; seen far above the
+    /// fundamental (a clock's 60th to 80th harmonics on a radiated scan) they fit a comb
+    /// through the origin at F ≈ 2·f·(1 + 1/(2m)) with consecutive numbers, and F/2 is no
+    /// harmonic of theirs. The candidate's middle member (frequency g, number n) then is
+    /// harmonic 2n − 1 or 2n + 1 of the odd comb.
+    ///
+    /// # Formula
+    /// ```text
+    /// f = g / (2n ± 1),  σ(f) = σ(g) / (2n ± 1)
+    /// ```
+    fn odd_comb_seeds(&self, c: &Candidate) -> Vec<(f64, f64)> {
+        if c.pattern != Pattern::All {
+            return Vec::new();
+        }
+        let Some(&(i, n)) = c.hits.get(c.hits.len() / 2) else {
+            return Vec::new();
+        };
+        let Some(l) = self.lines.get(i) else {
+            return Vec::new();
+        };
+        let n = f64::from(n);
+        [2.0 * n - 1.0, 2.0 * n + 1.0]
+            .into_iter()
+            .map(|m| (l.freq_hz / m, l.sigma_hz / m))
+            .filter(|&(f0, _)| f0 >= self.min_fundamental_hz)
+            .collect()
+    }
+
+    /// Two oscillators at a·F and b·F (a, b coprime, 2 … [`MAX_SUB_MULTIPLE`]) that a
+    /// candidate at their common divisor F explains as one: two clocks at 32 and 48 MHz fill
+    /// the even harmonics and the multiples of three of 16 MHz, and the harmonics of F that are
+    /// neither (16·5, 16·7, …) are clearly absent. Both hypotheses explain about the same lines;
+    /// they differ in the harmonics they predict, so in the misses they are charged. The pair
+    /// replaces F when each of the two passes the chance test and the family's hit ratio,
+    /// together they keep [`SUB_MULTIPLE_KEEPS`] of the candidate's lines, and their summed
+    /// excess over chance beats the candidate's by more than `family_cost` (the least value a
+    /// family must reach: the price of the second oscillator). Returns the stronger of the two;
+    /// the other's lines stay free for the next round.
+    ///
+    /// # Formula
+    /// ```text
+    /// split  ⇔  E(a·F) + E(b·F) > E(F) + v_min,   E = Σ w_hits − λ·misses − chance gain
+    /// ```
+    /// # Source
+    /// A likelihood-ratio comparison of nested hypotheses with a fixed price per added
+    /// component (the sieve's score is its log-likelihood proxy); the price is the acceptance
+    /// value of one family, not a tuned constant.
+    pub fn split_common_divisor(
+        &self,
+        c: &Candidate,
+        min_hit_ratio: f64,
+        family_cost: f64,
+    ) -> Option<Candidate> {
+        if c.pattern != Pattern::All || c.hits.len() < 6 {
+            return None;
+        }
+        let sigma = c.reported_sigma_hz.max(c.sigma_hz * 1e-3);
+        let multiples: Vec<Option<Candidate>> = (2..=MAX_SUB_MULTIPLE)
+            .map(|a| {
+                let af = f64::from(a);
+                let m = self.refined(af * c.fundamental_hz, af * sigma, Pattern::All);
+                let seen = m.hits.len() as f64;
+                (m.hits.len() >= 3
+                    && seen >= min_hit_ratio * (seen + m.misses as f64)
+                    && self.chance(&m) < self.params.max_chance)
+                    .then_some(m)
+            })
+            .collect();
+        let mut best: Option<(f64, Candidate)> = None;
+        for a in 2..=MAX_SUB_MULTIPLE {
+            for b in a + 1..=MAX_SUB_MULTIPLE {
+                if gcd(a, b) != 1 {
+                    continue;
+                }
+                let (Some(Some(ma)), Some(Some(mb))) = (
+                    multiples.get((a - 2) as usize),
+                    multiples.get((b - 2) as usize),
+                ) else {
+                    continue;
+                };
+                let kept = c
+                    .hits
+                    .iter()
+                    .filter(|h| ma.hits.iter().chain(&mb.hits).any(|s| s.0 == h.0))
+                    .count();
+                let gain = ma.excess + mb.excess - c.excess - family_cost;
+                if (kept as f64) < SUB_MULTIPLE_KEEPS * c.hits.len() as f64 || gain <= 0.0 {
+                    continue;
+                }
+                if best.as_ref().is_none_or(|b| gain > b.0) {
+                    let stronger = if better(ma, mb) { ma } else { mb };
+                    best = Some((gain, stronger.clone()));
+                }
+            }
+        }
+        best.map(|b| b.1)
+    }
+
+    /// Whether `sub` (a sub-multiple of `c`) keeps at least [`SUB_MULTIPLE_KEEPS`] of the lines
+    /// of `c`, sees at least `min_hit_ratio` of its predicted harmonics and passes the chance
+    /// test.
+    fn explains(&self, sub: &Candidate, c: &Candidate, min_hit_ratio: f64) -> bool {
+        let kept = c
+            .hits
+            .iter()
+            .filter(|h| sub.hits.iter().any(|s| s.0 == h.0))
+            .count();
+        let seen = sub.hits.len() as f64;
+        kept as f64 >= SUB_MULTIPLE_KEEPS * c.hits.len() as f64
+            && seen >= min_hit_ratio * (seen + sub.misses as f64)
+            && self.chance(sub) < self.params.max_chance
+    }
+
     /// The prefix of the hits (at least three) with the smallest chance, when that chance is
     /// below the limit; `None` otherwise or for long runs (a long run that fails is no family).
     fn least_chance_prefix(&self, c: &Candidate) -> Option<Candidate> {
@@ -431,6 +602,11 @@ impl Sieve<'_> {
         }
         best.filter(|b| b.0 < self.params.max_chance).map(|b| b.1)
     }
+}
+
+/// Greatest common divisor (Euclid).
+fn gcd(a: u32, b: u32) -> u32 {
+    if b == 0 { a } else { gcd(b, a % b) }
 }
 
 /// P(at least `h` successes) for independent trials with success probabilities `probs`.
@@ -665,6 +841,115 @@ mod tests {
         let refined = s.refined(115_674.4, 5.0, Pattern::All);
         assert!(refined.excess >= start.excess - 1e-9);
         assert!((refined.fundamental_hz / 115_674.4 - 1.0).abs() < 1e-5);
+    }
+
+    /// A 4 MHz clock (a standard crystal value, METHODS.md §10) seen on a 1001-point
+    /// 30 MHz-1 GHz grid (step 970 kHz: a line is placed within ±step/2, σ = step/√12 ≈
+    /// 280 kHz), every harmonic 8-240 present. A candidate found at 8 MHz explains every other
+    /// line only; its sub-multiple 4 MHz explains them all and wins. A true 8 MHz comb keeps its
+    /// fundamental: 4 MHz would predict an absent harmonic between every pair of its lines.
+    #[test]
+    fn a_fundamental_found_at_a_multiple_falls_to_the_true_one() {
+        let f0 = 4_000_039.0;
+        let f: Vec<f64> = (8..=240).map(|n| f0 * f64::from(n)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let at_8 = s.refined(2.0 * f0, 50.0, Pattern::All);
+        assert!((at_8.fundamental_hz / (2.0 * f0) - 1.0).abs() < 1e-4);
+        let c = s.best_sub_multiple(at_8, 0.6);
+        assert!(
+            (c.fundamental_hz / f0 - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
+        assert_eq!(c.pattern, Pattern::All);
+
+        let f: Vec<f64> = (4..=120).map(|n| 2.0 * f0 * f64::from(n)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let c = s.best_sub_multiple(s.refined(2.0 * f0, 50.0, Pattern::All), 0.6);
+        assert!(
+            (c.fundamental_hz / (2.0 * f0) - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
+    }
+
+    /// The odd harmonics 59-83 of a 12 MHz clock (a standard crystal value, METHODS.md §10;
+    /// a 50 % duty has no even harmonics, METHODS.md §5) on a 601-point 30 MHz-1 GHz grid
+    /// (step 1.62 MHz, σ = step/√12 ≈ 467 kHz). Through the origin they fit a comb at
+    /// 2·12 MHz·(1 + 1/70) ≈ 24.34 MHz with consecutive numbers 29-41 (harmonic 2m + 1 of
+    /// 12 MHz taken for harmonic m), whose half is no harmonic of theirs; the odd comb at
+    /// 12 MHz explains the same lines and wins.
+    #[test]
+    fn an_odd_comb_seen_far_up_is_not_a_comb_at_twice_its_fundamental() {
+        let f0 = 11_999_718.9;
+        let f: Vec<f64> = (29..=41).map(|m| f0 * f64::from(2 * m + 1)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 467e3;
+            line.width_hz = 1.8e6;
+        }
+        let s = sieve(&l, &[]);
+        let shifted = s.refined(24.34e6, 20e3, Pattern::All);
+        assert!(shifted.hits.len() >= 10, "{:?}", shifted.hits);
+        assert!((shifted.fundamental_hz / (2.0 * f0) - 1.0).abs() > 3e-3);
+        let c = s.best_sub_multiple(shifted, 0.6);
+        assert_eq!(c.pattern, Pattern::OddOnly);
+        assert!(
+            (c.fundamental_hz / f0 - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
+        assert_eq!(c.hits.len(), 13);
+    }
+
+    /// Clocks at 32 and 48 MHz (standard crystal values, METHODS.md §10), harmonics up to
+    /// 1 GHz (a radiated scan), σ = 280 kHz: a candidate at their common divisor 16 MHz
+    /// explains every line, but predicts the harmonics 5, 7, 11, … of 16 MHz, which are clearly
+    /// absent; the pair explains the same lines without them and replaces it. A 16 MHz clock
+    /// with every harmonic present stays one family.
+    #[test]
+    fn two_clocks_are_not_one_at_their_common_divisor() {
+        let mut f: Vec<f64> = (1..=31).map(|n| 32e6 * f64::from(n)).collect();
+        f.extend((1..=20).map(|n| 48e6 * f64::from(n)));
+        f.retain(|&x| x > 30e6 && x < 1e9);
+        f.sort_by(f64::total_cmp);
+        f.dedup();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let common = s.refined(16e6, 50.0, Pattern::All);
+        assert!(common.hits.len() >= f.len() - 1, "{:?}", common.hits);
+        let (v_min, ratio) = (2.5, 0.6); // FamilyParams::default()
+        let part = s.split_common_divisor(&common, ratio, v_min).unwrap();
+        assert!(
+            (part.fundamental_hz / 32e6 - 1.0).abs() < 1e-4
+                || (part.fundamental_hz / 48e6 - 1.0).abs() < 1e-4,
+            "{}",
+            part.fundamental_hz
+        );
+
+        let f: Vec<f64> = (2..=62).map(|n| 16e6 * f64::from(n)).collect();
+        let mut l = lines(&f);
+        for line in &mut l {
+            line.sigma_hz = 280e3;
+            line.width_hz = 1.2e6;
+        }
+        let s = sieve(&l, &[]);
+        let one = s.refined(16e6, 50.0, Pattern::All);
+        assert!(s.split_common_divisor(&one, ratio, v_min).is_none());
     }
 
     #[test]
