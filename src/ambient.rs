@@ -3,6 +3,7 @@
 //! spread.
 
 use crate::analysis::Origin;
+use crate::bandwidth::Hump;
 use crate::floor::{Floor, FloorParams, estimate_floor};
 use crate::peaks::FoundPeak;
 use crate::scan::Scan;
@@ -134,6 +135,169 @@ pub fn family_origin(members: &[Origin]) -> Origin {
     }
 }
 
+/// How far the deepest points of the DUT's trace must stand over those of the ambient's, both
+/// against the ambient's receiver floor, to count as a broadband emission, dB. Resolved lines
+/// lift a low quantile of a trace by taking the points between them: with a share u of the
+/// points on lines, the noise points' 5/(1 − u) % quantile shows instead of their 5 % one. For
+/// the widest noise law (M = 1, `D_q = 10·log10(−2·ln(1 − q))`, [`crate::floor`]) that is
+/// 10 dB at u = 87.5 %, so 10 dB keeps out combs that leave an eighth of the points to noise.
+pub const RAISED_FLOOR_DB: f64 = 10.0;
+
+/// A continuum's lower half (median to 5 % quantile) spreads like noise, within this allowance,
+/// dB: the beat of an unresolved comb's lines and the scalloping of a comb near the step spread
+/// a few dB wider than receiver noise; between resolved lines the filter skirts fall tens of dB
+/// from line to gap.
+const CONTINUUM_SPREAD_DB: f64 = 6.0;
+
+/// The quantile of a trace's points that shows whether it dips to the receiver floor.
+const DIP_QUANTILE: f64 = 0.05;
+
+/// Width of the windows the DUT trace is judged in: 0.05 decade, and at least 10 display
+/// steps (enough points for a quantile) and 20 RBWs (one strong line's filter skirts stay over
+/// the noise for a few RBWs: a Gaussian filter is 70 dB down at 1.7 RBW, so they hold under a
+/// fifth of a window and leave its 5 % quantile to the noise; the floor's window is as wide).
+const DIP_WINDOW_DECADES: f64 = 0.05;
+const DIP_WINDOW_STEPS: f64 = 10.0;
+const DIP_WINDOW_RBW: f64 = 20.0;
+
+/// Regions where the DUT trace never dips to the receiver floor that the ambient scans show.
+///
+/// With the DUT off, an ambient scan shows the receiver's noise (and the lab's broadband
+/// ambient). Where the DUT's trace, taken with the same RBW and detector, never comes down to
+/// it, the DUT fills every bucket there: a comb finer than the RBW or the display step, the
+/// merged plateaus of dithered harmonics, or broadband noise. Lines under it cannot be seen, so
+/// the region is reported as a hump with the rescan that would resolve a comb.
+///
+/// # Method
+/// The reference floor at each DUT point is the lowest of the matching ambient scans' floors
+/// (linear in log f between their points); scans with another RBW or detector give none. The
+/// DUT trace is cut into windows ([`DIP_WINDOW_DECADES`], at least [`DIP_WINDOW_STEPS`] steps
+/// and [`DIP_WINDOW_RBW`] RBWs). A window is raised when the 5 % quantile of its levels over
+/// the reference floor stands [`RAISED_FLOOR_DB`] over the 5 % quantile of the ambient scans'
+/// own levels over their floors (where noise shows, both lie a few dB under the floor's
+/// median). Runs of raised windows are the regions; a region spans at least five points, and
+/// its lower half (median to 5 % quantile) spreads no more than the noise's plus
+/// [`CONTINUUM_SPREAD_DB`] (the gaps between strong resolved lines never dip either, but their
+/// filter skirts spread over tens of dB).
+///
+/// # Source
+/// Derived: the receiver floor is common to two scans taken with the same settings; the floor
+/// is the median of a noise-only point ([`crate::floor`]); quantiles by nearest rank.
+pub fn raised_floor(dut: &Scan, ambient: &[AmbientScan]) -> Vec<Hump> {
+    let same = |a: &&AmbientScan| {
+        let (m, n) = (&dut.meta, &a.scan.meta);
+        let rbw = match (m.rbw_hz, n.rbw_hz) {
+            (Some(x), Some(y)) => (x - y).abs() <= 0.01 * x,
+            (None, None) => true,
+            _ => false,
+        };
+        rbw && m.detector == n.detector
+    };
+    let matching: Vec<&AmbientScan> = ambient.iter().filter(same).collect();
+    let refs: Vec<Vec<(f64, f64)>> = matching
+        .iter()
+        .map(|a| {
+            a.scan
+                .freq_hz
+                .iter()
+                .zip(&a.floor.floor_dbuv)
+                .map(|(&f, &l)| (f, l))
+                .collect()
+        })
+        .collect();
+    let mut noise_low: Vec<f64> = matching
+        .iter()
+        .flat_map(|a| {
+            a.scan
+                .level_dbuv
+                .iter()
+                .zip(&a.floor.floor_dbuv)
+                .map(|(l, f)| l - f)
+        })
+        .collect();
+    if noise_low.is_empty() || dut.len() < 5 {
+        return Vec::new();
+    }
+    let noise_mid = crate::floor::quantile_in_place(&mut noise_low, 0.5);
+    let noise_low = crate::floor::quantile_in_place(&mut noise_low, DIP_QUANTILE);
+    // level over the reference floor, per DUT point (None outside the ambient scans)
+    let over: Vec<Option<f64>> = (0..dut.len())
+        .map(|i| {
+            let f = dut.freq_hz[i];
+            let reference = refs
+                .iter()
+                .filter_map(|r| crate::limits::interpolate::log_interp(r, f))
+                .reduce(f64::min)?;
+            Some(dut.level_dbuv[i] - reference)
+        })
+        .collect();
+    let rbw = dut.meta.rbw_hz.unwrap_or(0.0);
+    // windows: [start, end) point ranges
+    let mut raised: Vec<(usize, usize, bool)> = Vec::new();
+    let mut i = 0;
+    while i < dut.len() {
+        let f = dut.freq_hz[i];
+        let width = (f * (10f64.powf(DIP_WINDOW_DECADES) - 1.0))
+            .max(DIP_WINDOW_STEPS * crate::bandwidth::local_step(dut, i))
+            .max(DIP_WINDOW_RBW * rbw);
+        let end = dut.freq_hz.as_slice().map_or(i + 1, |fs| {
+            fs.partition_point(|&x| x < f + width).max(i + 1)
+        });
+        let mut v: Vec<f64> = over[i..end].iter().flatten().copied().collect();
+        let up = !v.is_empty()
+            && crate::floor::quantile_in_place(&mut v, DIP_QUANTILE) - noise_low >= RAISED_FLOOR_DB;
+        raised.push((i, end, up));
+        i = end;
+    }
+    let mut out = Vec::new();
+    let mut k = 0;
+    while k < raised.len() {
+        if !raised[k].2 {
+            k += 1;
+            continue;
+        }
+        let first = raised[k].0;
+        while k < raised.len() && raised[k].2 {
+            k += 1;
+        }
+        let last = raised[k - 1].1 - 1;
+        if last < first + 4 {
+            continue;
+        }
+        let mut levels: Vec<f64> = over[first..=last].iter().flatten().copied().collect();
+        let median = crate::floor::quantile_in_place(&mut levels, 0.5);
+        let low = crate::floor::quantile_in_place(&mut levels, DIP_QUANTILE);
+        if median - low > noise_mid - noise_low + CONTINUUM_SPREAD_DB {
+            // the lower half spreads far wider than noise: the filter skirts of resolved
+            // lines between them, not a continuum
+            continue;
+        }
+        let top = (first..=last)
+            .max_by(|&a, &b| dut.level_dbuv[a].total_cmp(&dut.level_dbuv[b]))
+            .unwrap_or(first);
+        let mut h = Hump {
+            start_hz: dut.freq_hz[first],
+            stop_hz: dut.freq_hz[last],
+            freq_hz: dut.freq_hz[top],
+            level_dbuv: dut.level_dbuv[top],
+            over_floor_db: median,
+            family: None,
+            likely_source: Some(format!(
+                "the board's trace stands {median:.0} dB over the ambient's receiver floor here \
+                 and never dips to it: a comb finer than the RBW or the display step (a \
+                 converter at a low switching frequency or in burst mode, a PWM), merged \
+                 dithered harmonics or broadband noise fills every bucket, and lines under it \
+                 cannot be seen; a rescan with a narrower RBW shows a comb as lines"
+            )),
+            rescan: None,
+            seen_as: crate::bandwidth::HumpBasis::OverAmbientFloor,
+        };
+        h.rescan = dut.meta.rbw_hz.map(|r| crate::bandwidth::rescan_for(&h, r));
+        out.push(h);
+    }
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -161,6 +325,76 @@ mod tests {
             },
         )
         .unwrap()
+    }
+
+    /// A log-spaced 150 kHz-30 MHz trace (4001 points, RBW 9 kHz) of receiver noise read by a
+    /// peak detector (the largest of 4 Rayleigh samples per point, 0 dBµV scale), with `extra`
+    /// giving, per frequency, a steady level in dBµV added in power (`None`: nothing).
+    fn noise_scan(seed: u64, extra: impl Fn(f64, usize) -> Option<f64>) -> Scan {
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+        let n = 4001;
+        let f: Vec<f64> = (0..n)
+            .map(|i| 150e3 * 200f64.powf(i as f64 / (n - 1) as f64))
+            .collect();
+        let l: Vec<f64> = f
+            .iter()
+            .enumerate()
+            .map(|(i, &x)| {
+                let noise = (0..4)
+                    .map(|_| {
+                        let u: f64 = rng.random_range(1e-12..1.0);
+                        (-2.0 * u.ln()).sqrt()
+                    })
+                    .fold(0.0, f64::max);
+                let p = noise * noise + extra(x, i).map_or(0.0, |d| 10f64.powf(d / 10.0));
+                10.0 * p.log10()
+            })
+            .collect();
+        Scan::new(
+            f,
+            l,
+            ScanMeta {
+                rbw_hz: Some(9e3),
+                ..ScanMeta::default()
+            },
+        )
+        .unwrap()
+    }
+
+    #[test]
+    fn a_continuum_over_the_ambient_floor_is_a_hump_and_dense_lines_are_not() {
+        // source: derived; a steady emission 30 dB over the receiver noise from 1 to 3 MHz
+        // fills every bucket, so the board's trace there stands about 30 dB over the ambient's
+        // floor and never dips to it (the noise law of crate::floor); lines on 70 % of the
+        // points leave noise between them, and the 5 % quantile rises by
+        // 10·log10(ln(1 − 0.05/0.3)/ln(0.95)) ≈ 5.5 dB (M = 1 bound), under RAISED_FLOOR_DB
+        let ambient = noise_scan(1, |_, _| None);
+        let amb = [AmbientScan::new(&ambient)];
+        let hump = noise_scan(2, |f, _| (1e6..=3e6).contains(&f).then_some(30.0));
+        let found = raised_floor(&hump, &amb);
+        assert_eq!(found.len(), 1, "{found:?}");
+        let h = &found[0];
+        // edges within a judging window (0.05 decade here)
+        assert!((h.start_hz / 1e6).log10().abs() < 0.051, "{h:?}");
+        assert!((h.stop_hz / 3e6).log10().abs() < 0.051, "{h:?}");
+        // the floor is the median of a noise point, max of 4 Rayleigh samples:
+        // 10·log10(−2·ln(1 − 0.5^(1/4))) = 5.66 dB over the unit scale
+        let expected = 30.0 - crate::floor::max_rayleigh_quantile_db(0.5, 4.0);
+        assert!(
+            (h.over_floor_db - expected).abs() < 1.0,
+            "{h:?} vs {expected}"
+        );
+        assert!(h.rescan.is_some() && h.likely_source.is_some());
+        assert_eq!(h.seen_as, crate::bandwidth::HumpBasis::OverAmbientFloor);
+        let dense = noise_scan(3, |f, i| {
+            ((1e6..=3e6).contains(&f) && i % 10 < 7).then_some(40.0)
+        });
+        assert!(raised_floor(&dense, &amb).is_empty());
+        // the same board, measured with another RBW than the ambient: nothing to compare
+        let mut other = hump.clone();
+        other.meta.rbw_hz = Some(120e3);
+        assert!(raised_floor(&other, &amb).is_empty());
     }
 
     fn peak(freq_hz: f64, level_dbuv: f64) -> FoundPeak {

@@ -340,6 +340,24 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         });
         humps.push(h);
     }
+    for h in ambient::raised_floor(&dut, &ambient_scans) {
+        if humps
+            .iter()
+            .any(|k| k.start_hz <= h.start_hz && k.stop_hz >= h.stop_hz)
+        {
+            continue;
+        }
+        warnings.push(Warning {
+            code: "raised-floor",
+            message: format!(
+                "from {} to {} the board's floor stands {:.0} dB over the ambient's receiver floor: a comb finer than the RBW or the display step, or broadband noise, fills it; lines under it cannot be seen (see the humps for a rescan)",
+                fmt_hz(h.start_hz),
+                fmt_hz(h.stop_hz),
+                h.over_floor_db
+            ),
+        });
+        humps.push(h);
+    }
     let verdict = verdict(&limits);
     if also_silent {
         warnings.push(Warning {
@@ -408,6 +426,7 @@ fn steady_background(dut: &Scan, floor: &Floor) -> Option<bandwidth::Hump> {
         family: None,
         likely_source: Some("a steady broadband emission over the whole scan (a comb finer than the RBW or the step, a PWM or burst-mode converter); a rescan with a narrower RBW shows a comb as lines".into()),
         rescan: None,
+        seen_as: bandwidth::HumpBasis::SteadyTrace,
     };
     h.rescan = Some(bandwidth::rescan_for(&h, rbw));
     Some(h)

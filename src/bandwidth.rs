@@ -34,6 +34,21 @@ pub struct Hump {
     pub likely_source: Option<String>,
     /// The scan that would resolve it into lines, when it may be a comb.
     pub rescan: Option<Rescan>,
+    /// What shows it.
+    pub seen_as: HumpBasis,
+}
+
+/// The evidence of a hump.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum HumpBasis {
+    /// A region of the trace over its own detection threshold ([`find_humps`]).
+    Trace,
+    /// The trace never dips to the receiver floor the ambient scans show
+    /// ([`crate::ambient::raised_floor`]).
+    OverAmbientFloor,
+    /// The whole trace fluctuates far less than noise: a steady emission fills it.
+    SteadyTrace,
 }
 
 /// A scan setting to run again.
@@ -189,6 +204,7 @@ fn hump_of(f: &[f64], x: &[f64], floor: &Floor, s: usize, e: usize) -> Hump {
         family: None,
         likely_source: None,
         rescan: None,
+        seen_as: HumpBasis::Trace,
     }
 }
 
@@ -206,6 +222,7 @@ mod tests {
             family: None,
             likely_source: None,
             rescan: None,
+            seen_as: HumpBasis::Trace,
         }
     }
 

@@ -512,12 +512,14 @@ proptest! {
 
     #[test]
     fn peak_is_at_least_qp_and_qp_at_least_average((band, signal) in any_signal()) {
-        // source: fact of the trade, peak ≥ QP ≥ AV for every signal. Allowance 0.01 dB: where
-        // both read the full line (a burst much longer than the meter), QP trails AV by the
-        // charge stage's lag, 2·10⁻⁵ dB for a 2.1 s burst in band A.
+        // source: fact of the trade, peak ≥ QP ≥ AV for every signal. Allowance 0.05 dB: where
+        // both read nearly the full line (a burst a few meter time constants long), QP trails
+        // AV by the charge stage's lag on top of the meter's; with the carrier law's slow final
+        // approach (π·R/θ = 76 ms in band A) that is at most 0.023 dB (band A, 0.93 s bursts;
+        // bands B and C/D: none), found by a sweep of burst lengths.
         let r = simulate(band, &signal, &ModelSettings::coarse()).unwrap();
         prop_assert!(r.peak_dbuv >= r.quasi_peak_dbuv - 1e-6, "{signal:?} {r:?}");
-        prop_assert!(r.quasi_peak_dbuv >= r.average_dbuv - 0.01, "{signal:?} {r:?}");
+        prop_assert!(r.quasi_peak_dbuv >= r.average_dbuv - 0.05, "{signal:?} {r:?}");
     }
 }
 
