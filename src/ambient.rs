@@ -170,7 +170,7 @@ const DIP_WINDOW_RBW: f64 = 20.0;
 ///
 /// # Method
 /// The reference floor at each DUT point is the lowest of the matching ambient scans' floors
-/// (linear in log f between their points); scans with another RBW or detector give none. The
+/// (linear between their points, [`floor_at`]); scans with another RBW or detector give none. The
 /// DUT trace is cut into windows ([`DIP_WINDOW_DECADES`], at least [`DIP_WINDOW_STEPS`] steps
 /// and [`DIP_WINDOW_RBW`] RBWs). A window is raised when the 5 % quantile of its levels over
 /// the reference floor stands [`RAISED_FLOOR_DB`] over the 5 % quantile of the ambient scans'
@@ -194,17 +194,11 @@ pub fn raised_floor(dut: &Scan, ambient: &[AmbientScan]) -> Vec<Hump> {
         rbw && m.detector == n.detector
     };
     let matching: Vec<&AmbientScan> = ambient.iter().filter(same).collect();
-    let refs: Vec<Vec<(f64, f64)>> = matching
-        .iter()
-        .map(|a| {
-            a.scan
-                .freq_hz
-                .iter()
-                .zip(&a.floor.floor_dbuv)
-                .map(|(&f, &l)| (f, l))
-                .collect()
-        })
-        .collect();
+    // the reference floor per DUT point (NaN outside the ambient scans)
+    let mut reference = vec![f64::NAN; dut.len()];
+    for a in &matching {
+        floor_at(&dut.freq_hz, a, &mut reference);
+    }
     let mut noise_low: Vec<f64> = matching
         .iter()
         .flat_map(|a| {
@@ -220,17 +214,13 @@ pub fn raised_floor(dut: &Scan, ambient: &[AmbientScan]) -> Vec<Hump> {
     }
     let noise_mid = crate::floor::quantile_in_place(&mut noise_low, 0.5);
     let noise_low = crate::floor::quantile_in_place(&mut noise_low, DIP_QUANTILE);
-    // level over the reference floor, per DUT point (None outside the ambient scans)
-    let over: Vec<Option<f64>> = (0..dut.len())
-        .map(|i| {
-            let f = dut.freq_hz[i];
-            let reference = refs
-                .iter()
-                .filter_map(|r| crate::limits::interpolate::log_interp(r, f))
-                .reduce(f64::min)?;
-            Some(dut.level_dbuv[i] - reference)
-        })
+    // level over the reference floor, per DUT point (NaN outside the ambient scans)
+    let over: Vec<f64> = reference
+        .iter()
+        .zip(dut.level_dbuv.iter())
+        .map(|(r, l)| l - r)
         .collect();
+    drop(reference);
     let rbw = dut.meta.rbw_hz.unwrap_or(0.0);
     // windows: [start, end) point ranges
     let mut raised: Vec<(usize, usize, bool)> = Vec::new();
@@ -243,7 +233,11 @@ pub fn raised_floor(dut: &Scan, ambient: &[AmbientScan]) -> Vec<Hump> {
         let end = dut.freq_hz.as_slice().map_or(i + 1, |fs| {
             fs.partition_point(|&x| x < f + width).max(i + 1)
         });
-        let mut v: Vec<f64> = over[i..end].iter().flatten().copied().collect();
+        let mut v: Vec<f64> = over[i..end]
+            .iter()
+            .copied()
+            .filter(|x| !x.is_nan())
+            .collect();
         let up = !v.is_empty()
             && crate::floor::quantile_in_place(&mut v, DIP_QUANTILE) - noise_low >= RAISED_FLOOR_DB;
         raised.push((i, end, up));
@@ -264,7 +258,11 @@ pub fn raised_floor(dut: &Scan, ambient: &[AmbientScan]) -> Vec<Hump> {
         if last < first + 4 {
             continue;
         }
-        let mut levels: Vec<f64> = over[first..=last].iter().flatten().copied().collect();
+        let mut levels: Vec<f64> = over[first..=last]
+            .iter()
+            .copied()
+            .filter(|x| !x.is_nan())
+            .collect();
         let median = crate::floor::quantile_in_place(&mut levels, 0.5);
         let low = crate::floor::quantile_in_place(&mut levels, DIP_QUANTILE);
         if median - low > noise_mid - noise_low + CONTINUUM_SPREAD_DB {
@@ -296,6 +294,38 @@ pub fn raised_floor(dut: &Scan, ambient: &[AmbientScan]) -> Vec<Hump> {
         out.push(h);
     }
     out
+}
+
+/// Lowers `out[i]` to the ambient scan's floor at `at[i]` (ascending frequencies), linear
+/// between its neighbouring points in one pass (both sequences ascend); points outside its span
+/// are left alone (NaN stays NaN elsewhere). The floor is a smooth envelope sampled at every
+/// ambient point, so between neighbours linear and log-frequency interpolation agree to far
+/// under 0.01 dB.
+fn floor_at(at: &ndarray::Array1<f64>, a: &AmbientScan, out: &mut [f64]) {
+    let f = &a.scan.freq_hz;
+    let fl = &a.floor.floor_dbuv;
+    let n = f.len().min(fl.len());
+    if n == 0 {
+        return;
+    }
+    let mut j = 0;
+    for (x, o) in at.iter().zip(out.iter_mut()) {
+        if *x < f[0] || *x > f[n - 1] {
+            continue;
+        }
+        while j + 1 < n && f[j + 1] < *x {
+            j += 1;
+        }
+        let v = if j + 1 >= n || f[j + 1] <= f[j] {
+            fl[j]
+        } else {
+            let t = ((x - f[j]) / (f[j + 1] - f[j])).clamp(0.0, 1.0);
+            fl[j] + t * (fl[j + 1] - fl[j])
+        };
+        if o.is_nan() || v < *o {
+            *o = v;
+        }
+    }
 }
 
 #[cfg(test)]

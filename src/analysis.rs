@@ -255,20 +255,19 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         })
         .collect();
     // the ambient floors are independent of the DUT's stages: estimate them alongside
-    let (ambient_scans, (floor, found, bandwidth, humps)) = std::thread::scope(|s| {
-        let amb = s.spawn(|| {
-            ambient
-                .iter()
-                .map(|a| AmbientScan::new(&a.scan))
-                .collect::<Vec<_>>()
-        });
+    // and so is the comparison of the DUT's trace with their floors
+    let ambient_side = || {
+        let amb: Vec<AmbientScan> = ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect();
+        let raised = ambient::raised_floor(&dut, &amb);
+        (amb, raised)
+    };
+    let ((ambient_scans, raised), (floor, found, bandwidth, humps)) = std::thread::scope(|s| {
+        let amb = s.spawn(ambient_side);
         let floor = estimate_floor(&dut, &FloorParams::default());
         let found = find_peaks(&dut, &floor, &PeakParams::default());
         let bandwidth = bandwidth::classify(&dut, &found);
         let humps = bandwidth::find_humps(&dut, &floor, &found);
-        let amb = amb
-            .join()
-            .unwrap_or_else(|_| ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect());
+        let amb = amb.join().unwrap_or_else(|_| ambient_side());
         (amb, (floor, found, bandwidth, humps))
     });
     let evidence: Vec<PeakAmbient> = found
@@ -340,7 +339,7 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         });
         humps.push(h);
     }
-    for h in ambient::raised_floor(&dut, &ambient_scans) {
+    for h in raised {
         if humps
             .iter()
             .any(|k| k.start_hz <= h.start_hz && k.stop_hz >= h.stop_hz)
