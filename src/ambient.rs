@@ -393,7 +393,7 @@ mod tests {
     }
 
     #[test]
-    fn a_continuum_over_the_ambient_floor_is_a_hump_and_dense_lines_are_not() {
+    fn a_continuum_over_the_ambient_floor_is_a_hump_and_resolved_lines_are_not() {
         // source: derived; a steady emission 30 dB over the receiver noise from 1 to 3 MHz
         // fills every bucket, so the board's trace there stands about 30 dB over the ambient's
         // floor and never dips to it (the noise law of crate::floor); lines on 70 % of the
@@ -421,6 +421,20 @@ mod tests {
             ((1e6..=3e6).contains(&f) && i % 10 < 7).then_some(40.0)
         });
         assert!(raised_floor(&dense, &amb).is_empty());
+        // a strong resolved comb: lines 60 dB up every 3 RBW from 1 to 3 MHz, whose Gaussian
+        // filter skirts (−24.1·(Δf/B6)² dB, the power response of the filter of
+        // crate::detectors) stay 6 dB over the noise halfway between them; the trace never
+        // dips, but its lower half spreads over the skirts' tens of dB: no continuum
+        let skirts = noise_scan(4, |f, _| {
+            let spacing = 27e3;
+            let d = (f - 1e6)
+                .rem_euclid(spacing)
+                .min(spacing - (f - 1e6).rem_euclid(spacing));
+            (1e6..=3e6)
+                .contains(&f)
+                .then_some(60.0 - 24.1 * (d / 9e3).powi(2))
+        });
+        assert!(raised_floor(&skirts, &amb).is_empty());
         // the same board, measured with another RBW than the ambient: nothing to compare
         let mut other = hump.clone();
         other.meta.rbw_hz = Some(120e3);
