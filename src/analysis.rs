@@ -349,7 +349,7 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         warnings.push(Warning {
             code: "raised-floor",
             message: format!(
-                "from {} to {} the board's floor stands {:.0} dB over the ambient's receiver floor: a comb finer than the RBW or the display step, or broadband noise, fills it; lines under it cannot be seen (see the humps for a rescan)",
+                "from {} to {} the board's trace stands {:.0} dB over the ambient's receiver floor and never dips to it: a comb finer than the RBW or the display step, merged dithered harmonics or broadband noise fills it; lines under it cannot be seen (see the humps for a rescan)",
                 fmt_hz(h.start_hz),
                 fmt_hz(h.stop_hz),
                 h.over_floor_db

@@ -64,3 +64,57 @@ fn without_a_second_scan_there_is_no_discrimination() {
     let a = analyze(&main, &Context::default()).unwrap();
     assert!(a.peaks.iter().all(|p| p.discrimination.is_none()));
 }
+
+fn fine_comb_scene(role: &str, seed: u64, comb: bool) -> String {
+    let source = if comb {
+        r#"
+[[switching]]
+name = "burst-mode converter, 4 kHz"
+f0_hz = 4e3
+duty = 0.2
+edge_time_s = 50e-9
+fundamental_dbuv = 60.0
+"#
+    } else {
+        ""
+    };
+    format!(
+        r#"
+[scan]
+start_hz = 150e3
+stop_hz = 2e6
+points = 2001
+rbw_hz = 9e3
+seed = {seed}
+role = "{role}"
+[floor]
+level_dbuv = 0.0
+{source}"#
+    )
+}
+
+#[test]
+fn a_comb_finer_than_the_rbw_stands_over_the_ambient_floor() {
+    // source: METHODS §6 (a comb finer than the RBW shows as a continuum, not as lines) and
+    // derived: the receiver floor is common to both scans; a 4 kHz comb under a 9 kHz RBW
+    // fills every bucket, so the board's trace never dips to the ambient's floor
+    let dut = render(&parse_scene(&fine_comb_scene("dut", 5, true), "dut.toml").unwrap()).unwrap();
+    let ambient =
+        render(&parse_scene(&fine_comb_scene("ambient", 6, false), "amb.toml").unwrap()).unwrap();
+    let a = analyze(
+        &dut,
+        &Context {
+            ambient: vec![ambient],
+            ..Context::default()
+        },
+    )
+    .unwrap();
+    let hump = a
+        .humps
+        .iter()
+        .find(|h| h.seen_as == spurhound::bandwidth::HumpBasis::OverAmbientFloor)
+        .expect("a hump over the ambient floor");
+    assert!(hump.start_hz < 300e3 && hump.stop_hz > 1e6, "{hump:?}");
+    assert!(hump.rescan.is_some_and(|r| r.rbw_hz < 9e3), "{hump:?}");
+    assert!(a.warnings.iter().any(|w| w.code == "raised-floor"));
+}
