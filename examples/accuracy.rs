@@ -41,12 +41,11 @@ fn args() -> Args {
     a
 }
 
-/// Every third case radiated, the rest conducted (full or zoomed, drawn).
+/// The harness's mix ([`CaseOptions::harness`]), with an optional cap on the points.
 fn options(seed: u64, max_points: Option<usize>) -> CaseOptions {
     CaseOptions {
-        conducted: seed % 3 != 2,
-        zoom: None,
         max_points,
+        ..CaseOptions::harness(seed)
     }
 }
 

@@ -20,13 +20,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     // (cases, cases with such a hump) for: unresolved comb, dithered only, neither
     let mut counts = [(0usize, 0usize); 3];
     for seed in 1..=n {
-        let case = random_case(
-            seed,
-            &CaseOptions {
-                conducted: seed % 3 != 2,
-                ..CaseOptions::default()
-            },
-        )?;
+        let case = random_case(seed, &CaseOptions::harness(seed))?;
         let scan = case.dut_scan()?;
         let ctx = case.context(case.ambient_scans()?)?;
         let a = spurhound::analyze(&scan, &ctx)?;

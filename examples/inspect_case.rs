@@ -12,13 +12,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         .nth(1)
         .and_then(|s| s.parse().ok())
         .unwrap_or(1);
-    let case = random_case(
-        seed,
-        &CaseOptions {
-            conducted: seed % 3 != 2,
-            ..CaseOptions::default()
-        },
-    )?;
+    let case = random_case(seed, &CaseOptions::harness(seed))?;
     let scan = case.dut_scan()?;
     let ctx = case.context(case.ambient_scans()?)?;
     let a = spurhound::analyze(&scan, &ctx)?;

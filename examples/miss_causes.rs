@@ -16,13 +16,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         .unwrap_or(200);
     let mut causes: std::collections::BTreeMap<&str, usize> = Default::default();
     for seed in 1..=n {
-        let case = random_case(
-            seed,
-            &CaseOptions {
-                conducted: seed % 3 != 2,
-                ..CaseOptions::default()
-            },
-        )?;
+        let case = random_case(seed, &CaseOptions::harness(seed))?;
         let scan = case.dut_scan()?;
         let ctx = case.context(case.ambient_scans()?)?;
         let a = spurhound::analyze(&scan, &ctx)?;

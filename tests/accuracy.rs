@@ -16,11 +16,11 @@ use spurhound::synth::random::{
 use spurhound::synth::render;
 use std::panic::{AssertUnwindSafe, catch_unwind};
 
+/// The harness's mix ([`CaseOptions::harness`]), with an optional cap on the points.
 fn options(seed: u64, max_points: Option<usize>) -> CaseOptions {
     CaseOptions {
-        conducted: seed % 3 != 2,
-        zoom: None,
         max_points,
+        ..CaseOptions::harness(seed)
     }
 }
 

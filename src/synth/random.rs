@@ -131,6 +131,18 @@ impl Default for CaseOptions {
     }
 }
 
+impl CaseOptions {
+    /// The accuracy harness's mix: every third seed (2, 5, 8, ...) radiated, the rest
+    /// conducted (full or zoomed, drawn). Every harness and diagnostic uses this, so a seed
+    /// names the same case everywhere.
+    pub fn harness(seed: u64) -> Self {
+        CaseOptions {
+            conducted: seed % 3 != 2,
+            ..CaseOptions::default()
+        }
+    }
+}
+
 /// One visible line of a true family in the DUT scene.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TruthLine {
