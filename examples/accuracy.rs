@@ -63,7 +63,8 @@ fn main() {
         .map(|s| (*s, Totals::default()))
         .collect();
     let mut notes: Vec<String> = Vec::new();
-    let mut mix: Vec<(String, usize)> = Vec::new();
+    // (kind/origin key, eligible, matched)
+    let mut mix: Vec<(String, usize, usize)> = Vec::new();
     let started = Instant::now();
     for seed in a.seed..a.seed + a.n {
         let t0 = Instant::now();
@@ -75,19 +76,19 @@ fn main() {
                 continue;
             }
         };
-        for t in case.truth.iter().filter(|t| t.eligible()) {
-            let key = format!(
-                "{:?}/{:?}{}{}",
-                t.kind,
-                t.origin,
-                if t.intermittent { " intermittent" } else { "" },
-                if t.spread_pct > 0.0 { " dithered" } else { "" }
-            );
-            match mix.iter_mut().find(|(k, _)| *k == key) {
-                Some((_, n)) => *n += 1,
-                None => mix.push((key, 1)),
-            }
-        }
+        let keys: Vec<String> = case
+            .truth
+            .iter()
+            .map(|t| {
+                format!(
+                    "{:?}/{:?}{}{}",
+                    t.kind,
+                    t.origin,
+                    if t.intermittent { " intermittent" } else { "" },
+                    if t.spread_pct > 0.0 { " dithered" } else { "" }
+                )
+            })
+            .collect();
         let ambient = match case.ambient_scans() {
             Ok(x) => x,
             Err(e) => {
@@ -115,6 +116,16 @@ fn main() {
             Outcome::Scored(s) => s.clone(),
             _ => score_failed(&case),
         };
+        for &(ti, hit) in &score.eligible_hits {
+            let key = &keys[ti];
+            match mix.iter_mut().find(|(k, _, _)| k == key) {
+                Some((_, n, h)) => {
+                    *n += 1;
+                    *h += usize::from(hit);
+                }
+                None => mix.push((key.clone(), 1, usize::from(hit))),
+            }
+        }
         let slot = by
             .iter_mut()
             .find(|(s, _)| *s == case.scenario)
@@ -155,11 +166,13 @@ fn main() {
         .collect();
     print_table(&summaries);
     mix.sort();
-    let mix: Vec<String> = mix.iter().map(|(k, n)| format!("{k} {n}")).collect();
-    println!(
-        "\neligible truth families by kind/origin: {}",
-        mix.join(", ")
-    );
+    println!("\nrecall by kind/origin (matched/eligible):");
+    for (k, n, h) in &mix {
+        println!(
+            "  {k:<36} {h:>4}/{n:<4} {:.2}",
+            *h as f64 / (*n).max(1) as f64
+        );
+    }
     if all.cases_with_families == 0 {
         println!(
             "\nnote: no case reported any family; the attribution stages are not in analyze yet, so the family rates are 0 by construction."

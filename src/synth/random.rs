@@ -494,15 +494,33 @@ fn background_at(scene: &Scene, freq_hz: f64) -> f64 {
             continue;
         }
         let duty = p.duty.unwrap_or(if is_clock { 0.5 } else { 0.0 });
-        // dithered harmonics wider than the spacing overlap: their powers add
+        // dithered harmonics wider than the spacing overlap: their powers add; the reading is
+        // the mean over the harmonics that merge there, not harmonic n alone, which may sit in
+        // a null of the trapezoid spectrum while its neighbours do not
+        let merged = overlap.max(s.rbw_hz / p.f0_hz);
         let level = p.fundamental_dbuv
-            + relative_db(p, duty, n, s.rbw_hz)
+            + merged_relative_db(p, duty, n, merged, s.rbw_hz)
             + 10.0 * overlap.max(1.0).log10();
         if level.is_finite() {
             power += 10f64.powf(level / 10.0);
         }
     }
     10.0 * power.log10()
+}
+
+/// Mean of [`relative_db`] in power over the harmonics around `n` that merge into one reading
+/// (`merged` of them, at least n−1..n+1; at most 33 sampled evenly), dB.
+fn merged_relative_db(p: &Periodic, duty: f64, n: u32, merged: f64, rbw_hz: f64) -> f64 {
+    let half = (merged / 2.0).ceil().max(1.0) as u32;
+    let lo = n.saturating_sub(half).max(1);
+    let hi = n.saturating_add(half);
+    let stride = ((hi - lo) / 32).max(1);
+    let (mut sum, mut count) = (0.0, 0u32);
+    for k in (lo..=hi).step_by(stride as usize) {
+        sum += 10f64.powf(relative_db(p, duty, k, rbw_hz) / 10.0);
+        count += 1;
+    }
+    10.0 * (sum / f64::from(count.max(1))).log10()
 }
 
 /// How many dithered harmonics of `p` overlap at harmonic `n`: its width n·f0·spread over the
@@ -1451,6 +1469,8 @@ pub struct CaseScore {
     pub unresolved_combs: usize,
     /// Of those, with a reported hump inside the span of their visible lines.
     pub humps_found: usize,
+    /// Every eligible truth family (index into `Case::truth`) and whether it was matched.
+    pub eligible_hits: Vec<(usize, bool)>,
     /// Labels of eligible truth families that were not matched.
     pub missed: Vec<String>,
     /// Fundamentals (Hz) of reported families (≥ 3 harmonics) that matched nothing.
@@ -1492,6 +1512,7 @@ fn score_reports(
             sc.eligible += 1;
             let hit = report_of(ti).is_some();
             sc.recalled += usize::from(hit);
+            sc.eligible_hits.push((ti, hit));
             if t.strong() {
                 sc.eligible_strong += 1;
                 sc.recalled_strong += usize::from(hit);
@@ -1803,5 +1824,48 @@ impl Summary {
             ));
         }
         out
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A dithered converter of duty 0.25 in a radiated-like setting: its harmonics merge, and
+    /// every fourth harmonic sits in a null of the trapezoid spectrum (|sin(π·n·d)| = 0 at
+    /// n·d integer, METHODS §5).
+    fn merged_scene() -> Scene {
+        let mut sc: Scene =
+            toml::from_str(crate::synth::scene::tests::EXAMPLE_BUCK).expect("scene");
+        sc.clock.clear();
+        sc.carrier.clear();
+        sc.switching = vec![Periodic {
+            name: Some("quarter duty".into()),
+            f0_hz: 100e3,
+            duty: Some(0.25),
+            edge_time_s: 5e-9,
+            fundamental_dbuv: 80.0,
+            coupling_db_per_decade: 0.0,
+            spread_pct: 4.0,
+            spread_rate_hz: 0.0,
+            max_harmonic: 0,
+        }];
+        sc
+    }
+
+    #[test]
+    fn merged_background_is_the_envelope_not_the_nearest_harmonic() {
+        let sc = merged_scene();
+        // harmonic 200 (20 MHz) is a null (200·0.25 = 50); 202 is at the sinc envelope's crest
+        // region. 8 harmonics merge there (200·4 %), so the reading is their mean power and
+        // the two frequencies one spacing apart must read within a few dB of each other.
+        let at_null = background_at(&sc, 20.0e6);
+        let beside = background_at(&sc, 20.2e6);
+        assert!(
+            (at_null - beside).abs() < 3.0,
+            "null {at_null:.1} dBµV vs beside {beside:.1} dBµV"
+        );
+        // and far above the receiver floor: the merged comb is the background there
+        assert!(at_null > floor_at(&sc, 20.0e6) + 20.0, "{at_null:.1}");
     }
 }
