@@ -487,6 +487,10 @@ fn background_at(scene: &Scene, freq_hz: f64) -> f64 {
         .iter()
         .map(|p| (p, false))
         .chain(scene.clock.iter().map(|p| (p, true)));
+    // the display bucket of the point that shows a line at `freq_hz`: a peak detector reads
+    // the largest of the background over it, other detectors about its mean
+    let half = step_at(s, freq_hz) / 2.0;
+    let peak = s.detector == Detector::Peak;
     for (p, is_clock) in sources {
         let n = (freq_hz / p.f0_hz).round().max(1.0) as u32;
         let overlap = overlapping_harmonics(p, n);
@@ -498,9 +502,22 @@ fn background_at(scene: &Scene, freq_hz: f64) -> f64 {
         // the mean over the harmonics that merge there, not harmonic n alone, which may sit in
         // a null of the trapezoid spectrum while its neighbours do not
         let merged = overlap.max(s.rbw_hz / p.f0_hz);
-        let level = p.fundamental_dbuv
-            + merged_relative_db(p, duty, n, merged, s.rbw_hz)
-            + 10.0 * overlap.max(1.0).log10();
+        let reading = |k: u32| {
+            p.fundamental_dbuv
+                + merged_relative_db(p, duty, k, merged, s.rbw_hz)
+                + 10.0 * overlapping_harmonics(p, k).max(1.0).log10()
+        };
+        let lo = ((freq_hz - half) / p.f0_hz).round().max(1.0) as u32;
+        let hi = (((freq_hz + half) / p.f0_hz).round() as u32).max(lo);
+        let stride = ((hi - lo) / 16).max(1) as usize;
+        let readings = (lo..=hi).step_by(stride).map(reading);
+        let level = if peak {
+            readings.fold(f64::NEG_INFINITY, f64::max)
+        } else {
+            let (sum, count) =
+                readings.fold((0.0, 0.0), |(s, c), l| (s + 10f64.powf(l / 10.0), c + 1.0));
+            10.0 * (sum / f64::max(count, 1.0)).log10()
+        };
         if level.is_finite() {
             power += 10f64.powf(level / 10.0);
         }
@@ -1867,5 +1884,30 @@ mod tests {
         );
         // and far above the receiver floor: the merged comb is the background there
         assert!(at_null > floor_at(&sc, 20.0e6) + 20.0, "{at_null:.1}");
+    }
+
+    #[test]
+    fn a_peak_detector_reads_the_largest_background_of_its_bucket() {
+        // an undithered 100 kHz comb of duty 0.01: its trapezoid spectrum has nulls every 100
+        // harmonics (n·d integer, METHODS §5), so 20 MHz (n = 200) sits in a null of a lobe
+        // 10 MHz wide; on a 5 MHz grid the point showing 20 MHz holds 17.5-22.5 MHz, whose
+        // largest reading (n = 225, |sin(π·2.25)| = 0.71) is what a line there must beat
+        let mut sc = merged_scene();
+        sc.switching[0].duty = Some(0.01);
+        sc.switching[0].spread_pct = 0.0;
+        sc.scan.spacing = Spacing::Linear;
+        sc.scan.start_hz = 10e6;
+        sc.scan.stop_hz = 30e6;
+        sc.scan.points = 5;
+        let p = &sc.switching[0];
+        let crest = p.fundamental_dbuv + relative_db(p, 0.01, 225, sc.scan.rbw_hz);
+        let at_null = background_at(&sc, 20.0e6);
+        assert!(
+            at_null > crest - 1.0,
+            "bucket background {at_null:.1} dBµV vs its crest {crest:.1} dBµV"
+        );
+        // a sample detector reads the mean over the bucket instead: lower than the crest
+        sc.scan.detector = Detector::Sample;
+        assert!(background_at(&sc, 20.0e6) < at_null - 1.0);
     }
 }
