@@ -1311,16 +1311,55 @@ fn visible_lines(p: &Periodic, is_clock: bool, scene: &Scene) -> Vec<TruthLine> 
             // a dithered harmonic wider than the spacing has merged with its neighbours into a
             // continuum: it is part of the background, not a line
             let apart = overlapping_harmonics(p, n) <= 1.0;
-            (apart && level_dbuv.is_finite() && level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(
-                TruthLine {
+            let masked = p.f0_hz > resolution(s, freq_hz)
+                && stronger_line_near(scene, freq_hz, level_dbuv, Some(p.f0_hz), None);
+            (apart && !masked && level_dbuv.is_finite() && level_dbuv >= floor_dbuv + VISIBLE_DB)
+                .then_some(TruthLine {
                     harmonic: n,
                     freq_hz,
                     level_dbuv,
                     floor_dbuv,
-                },
-            )
+                })
         })
         .collect()
+}
+
+/// Whether another source's resolved line within half the resolution distance of `freq_hz`
+/// (max(RBW, display step)) reads stronger than `level_dbuv`: the two show as one peak, at the
+/// stronger one, so the weaker is not a line of its own. `own_f0` / `own_carrier` name the line's
+/// own source, which is skipped.
+fn stronger_line_near(
+    scene: &Scene,
+    freq_hz: f64,
+    level_dbuv: f64,
+    own_f0: Option<f64>,
+    own_carrier: Option<f64>,
+) -> bool {
+    let s = &scene.scan;
+    let near = resolution(s, freq_hz) / 2.0;
+    let periodic = scene
+        .switching
+        .iter()
+        .map(|p| (p, false))
+        .chain(scene.clock.iter().map(|p| (p, true)));
+    for (q, is_clock) in periodic {
+        if own_f0 == Some(q.f0_hz) || q.f0_hz <= resolution(s, freq_hz) {
+            continue;
+        }
+        let k = (freq_hz / q.f0_hz).round().max(1.0) as u32;
+        if (f64::from(k) * q.f0_hz - freq_hz).abs() >= near || overlapping_harmonics(q, k) > 1.0 {
+            continue;
+        }
+        let duty = q.duty.unwrap_or(if is_clock { 0.5 } else { 0.0 });
+        if q.fundamental_dbuv + relative_db(q, duty, k, s.rbw_hz) > level_dbuv {
+            return true;
+        }
+    }
+    scene.carrier.iter().any(|c| {
+        own_carrier != Some(c.freq_hz)
+            && (c.freq_hz - freq_hz).abs() < near
+            && c.level_dbuv > level_dbuv
+    })
 }
 
 fn worst_margin(lines: &[TruthLine], limit: &Limit) -> Option<f64> {
@@ -1399,7 +1438,8 @@ fn carrier_set_truth(
             let f = c.c.freq_hz;
             let floor_dbuv = background_at(dut, f);
             let inside = f >= s.start_hz && f <= s.stop_hz;
-            (inside && c.c.level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(TruthLine {
+            let masked = stronger_line_near(dut, f, c.c.level_dbuv, None, Some(f));
+            (inside && !masked && c.c.level_dbuv >= floor_dbuv + VISIBLE_DB).then_some(TruthLine {
                 harmonic: (f / raster).round() as u32,
                 freq_hz: f,
                 level_dbuv: c.c.level_dbuv,
@@ -1884,6 +1924,41 @@ mod tests {
         );
         // and far above the receiver floor: the merged comb is the background there
         assert!(at_null > floor_at(&sc, 20.0e6) + 20.0, "{at_null:.1}");
+    }
+
+    #[test]
+    fn a_line_beside_a_stronger_one_is_not_a_line_of_its_own() {
+        // a carrier 756 Hz from a converter's 80 dBµV fundamental, under a 9 kHz RBW (common
+        // practice: two lines closer than the RBW show as one response, at the stronger)
+        let mut sc = merged_scene();
+        sc.switching[0].f0_hz = 783_756.0;
+        sc.switching[0].spread_pct = 0.0;
+        sc.carrier = vec![Carrier {
+            name: None,
+            freq_hz: 783e3,
+            level_dbuv: 50.0,
+            am_depth: 0.3,
+            fade_db: 0.0,
+        }];
+        assert!(stronger_line_near(&sc, 783e3, 50.0, None, Some(783e3)));
+        // 40 kHz away it stands apart; and the converter's own line is not masked by itself
+        assert!(!stronger_line_near(&sc, 823e3, 50.0, None, None));
+        assert!(!stronger_line_near(
+            &sc,
+            783_756.0,
+            80.0,
+            Some(783_756.0),
+            None
+        ));
+        // the carrier masks the weaker converter line it sits on when it is the stronger
+        sc.carrier[0].level_dbuv = 90.0;
+        assert!(stronger_line_near(
+            &sc,
+            783_756.0,
+            80.0,
+            Some(783_756.0),
+            None
+        ));
     }
 
     #[test]
