@@ -425,6 +425,20 @@ fn drop_bright_intruders(hits: &mut Vec<(usize, u32)>, peaks: &[FoundPeak]) {
     });
 }
 
+/// Where a broadcast carrier sits: the middle of its −6 dB extent. A modulated carrier's level
+/// changes while the receiver sweeps across it, so its top wanders over the flat part of the
+/// filter response: a ±1 dB fluctuation moves the top of a Gaussian filter by ±0.2·B6 but each
+/// −6 dB edge, where the response falls 12 dB per half-bandwidth, by only ±B6/24 (derived from
+/// the Gaussian IF |H(f)| = exp(−4·ln2·f²/B6²), METHODS §3). Hence also the σ floor of a thirtieth of the width in
+/// [`broadcast`]: the edges' residual wander. A wide emission keeps its plateau centre.
+fn carrier_centre_hz(p: &FoundPeak, line: &Line) -> f64 {
+    if p.width_hz > 0.0 && line.width_hz <= p.width_hz {
+        0.5 * (p.left_hz + p.right_hz)
+    } else {
+        line.freq_hz
+    }
+}
+
 fn broadcast(
     peaks: &[FoundPeak],
     lines: &[Line],
@@ -436,8 +450,8 @@ fn broadcast(
     let o: Vec<raster::Offered> = offered
         .iter()
         .map(|&i| raster::Offered {
-            freq_hz: lines[i].freq_hz,
-            sigma_hz: lines[i].sigma_hz,
+            freq_hz: carrier_centre_hz(&peaks[i], &lines[i]),
+            sigma_hz: lines[i].sigma_hz.max(peaks[i].width_hz / 30.0),
             narrow: narrow.get(i).copied().unwrap_or(true),
             in_ambient: in_ambient.get(i).copied().unwrap_or(false),
         })
@@ -580,6 +594,40 @@ mod tests {
             significance_db: 10.0,
             over_floor_db: 20.0,
         }
+    }
+
+    /// Three MF stations on the 9 kHz raster (ITU RR Article 5, Region 1; METHODS.md §7) seen
+    /// in the ambient scans too, whose tops wandered 0.8-1.3 kHz while the receiver swept across
+    /// their modulation; their −6 dB edges stay centred on the channel (9 kHz RBW)
+    #[test]
+    fn modulated_carriers_are_placed_by_their_edges() {
+        let channels = [954e3, 1350e3, 1404e3];
+        let wander = [1296.0, -1152.0, 750.0];
+        let peaks: Vec<FoundPeak> = channels
+            .iter()
+            .zip(wander)
+            .map(|(&c, w)| FoundPeak {
+                left_hz: c - 4.6e3,
+                right_hz: c + 4.6e3,
+                width_hz: 9.2e3,
+                ..peak(c + w, 50.0)
+            })
+            .collect();
+        let lines: Vec<Line> = peaks
+            .iter()
+            .map(|p| Line {
+                freq_hz: p.freq_hz,
+                sigma_hz: 190.0,
+                weight: 1.5,
+                strength_db: 20.0,
+                width_hz: 9.2e3,
+            })
+            .collect();
+        let sets = broadcast(&peaks, &lines, &[true; 3], &[true; 3], &[true; 3]);
+        assert_eq!(sets.len(), 1, "{sets:?}");
+        assert_eq!(sets[0].0.step_hz, 9e3);
+        let channel_numbers: Vec<u32> = sets[0].1.iter().map(|m| m.1).collect();
+        assert_eq!(channel_numbers, vec![106, 150, 156]);
     }
 
     /// A 100 kHz converter falling at 20 dB/decade (the trapezoid envelope between its break
