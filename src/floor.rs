@@ -26,7 +26,12 @@ use serde::Serialize;
 /// Settings of the floor estimate.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FloorParams {
-    /// Half-width of the envelope window in decades of frequency (at least).
+    /// Half-width of the envelope window in decades of frequency (at least). The default,
+    /// 0.015 decade (±3.5 %), lets the floor follow a continuum's dips (the sinc lobes of an
+    /// unresolved comb, a few per cent wide in a radiated scan), where a line stands out that a
+    /// wider window's floor would bury; measured on the accuracy harness against 0.1 decade over
+    /// three sets of 200 cases: top-1 +0.02 to +0.03, peak recall +0.01, family recall and
+    /// precision within ±0.02 of before.
     pub window_decades: f64,
     /// Half-width of the envelope window in RBWs (at least), when the RBW is known.
     pub window_rbw: f64,
@@ -37,7 +42,7 @@ pub struct FloorParams {
 impl Default for FloorParams {
     fn default() -> Self {
         FloorParams {
-            window_decades: 0.1,
+            window_decades: 0.015,
             window_rbw: 20.0,
             false_alarms: 0.05,
         }
@@ -380,9 +385,19 @@ mod tests {
                 "m {m}: fitted {}",
                 f.samples_per_point
             );
+            // the level: unbiased over the trace, and 99 % of the points within the local
+            // window's sampling error (measured: 1.3 dB for single-sample noise at 0.015
+            // decade, 1.1 dB at 0.1 decade; a narrower window follows a continuum's dips)
             let want = sigma + max_rayleigh_quantile_db(0.5, m as f64);
-            let mid = f.floor_dbuv[10_000];
-            assert!((mid - want).abs() < 0.3, "m {m}: floor {mid}, want {want}");
+            let mut all = f.floor_dbuv.clone();
+            let median = quantile_in_place(&mut all, 0.5);
+            assert!(
+                (median - want).abs() < 0.3,
+                "m {m}: floor {median}, want {want}"
+            );
+            let mut off: Vec<f64> = f.floor_dbuv.iter().map(|x| (x - want).abs()).collect();
+            let q99 = quantile_in_place(&mut off, 0.99);
+            assert!(q99 < 1.5, "m {m}: 1 % of the points over {q99:.2} dB off");
         }
     }
 
