@@ -425,18 +425,22 @@ fn drop_bright_intruders(hits: &mut Vec<(usize, u32)>, peaks: &[FoundPeak]) {
     });
 }
 
-/// Where a broadcast carrier sits: the middle of its −6 dB extent. A modulated carrier's level
-/// changes while the receiver sweeps across it, so its top wanders over the flat part of the
-/// filter response: a ±1 dB fluctuation moves the top of a Gaussian filter by ±0.2·B6 but each
-/// −6 dB edge, where the response falls 12 dB per half-bandwidth, by only ±B6/24 (derived from
-/// the Gaussian IF |H(f)| = exp(−4·ln2·f²/B6²), METHODS §3). Hence also the σ floor of a thirtieth of the width in
-/// [`broadcast`]: the edges' residual wander. A wide emission keeps its plateau centre.
-fn carrier_centre_hz(p: &FoundPeak, line: &Line) -> f64 {
-    if p.width_hz > 0.0 && line.width_hz <= p.width_hz {
-        0.5 * (p.left_hz + p.right_hz)
-    } else {
-        line.freq_hz
-    }
+/// Where a broadcast carrier sits, and how well that is known (Hz, Hz). A modulated carrier's
+/// level changes while the receiver sweeps across it, so its top wanders over the flat part of
+/// the filter response: a ±1 dB fluctuation moves the top of a Gaussian filter by ±0.2·B6, but
+/// each −6 dB edge, where the response falls 12 dB per half-bandwidth, by only ±B6/24 (derived
+/// from the Gaussian IF |H(f)| = exp(−4·ln2·f²/B6²), METHODS §3). The middle of the −6 dB
+/// extent is pulled instead by a neighbour's skirt on one side (a converter harmonic beside the
+/// station). Neither estimate is safe alone, so the carrier is placed at their mean, with a σ of
+/// at least half their difference, a thirtieth of the width (the edges' own wander) and the
+/// line's σ.
+fn carrier_position(p: &FoundPeak, line: &Line) -> (f64, f64) {
+    let middle = 0.5 * (p.left_hz + p.right_hz);
+    let sigma = line
+        .sigma_hz
+        .max(p.width_hz / 30.0)
+        .max(0.5 * (line.freq_hz - middle).abs());
+    (0.5 * (line.freq_hz + middle), sigma)
 }
 
 fn broadcast(
@@ -449,11 +453,14 @@ fn broadcast(
     let offered: Vec<usize> = (0..peaks.len()).filter(|&i| free[i]).collect();
     let o: Vec<raster::Offered> = offered
         .iter()
-        .map(|&i| raster::Offered {
-            freq_hz: carrier_centre_hz(&peaks[i], &lines[i]),
-            sigma_hz: lines[i].sigma_hz.max(peaks[i].width_hz / 30.0),
-            narrow: narrow.get(i).copied().unwrap_or(true),
-            in_ambient: in_ambient.get(i).copied().unwrap_or(false),
+        .map(|&i| {
+            let (freq_hz, sigma_hz) = carrier_position(&peaks[i], &lines[i]);
+            raster::Offered {
+                freq_hz,
+                sigma_hz,
+                narrow: narrow.get(i).copied().unwrap_or(true),
+                in_ambient: in_ambient.get(i).copied().unwrap_or(false),
+            }
         })
         .collect();
     raster::broadcast_sets(&o)
@@ -598,12 +605,14 @@ mod tests {
 
     /// Three MF stations on the 9 kHz raster (ITU RR Article 5, Region 1; METHODS.md §7) seen
     /// in the ambient scans too, whose tops wandered 0.8-1.3 kHz while the receiver swept across
-    /// their modulation; their −6 dB edges stay centred on the channel (9 kHz RBW)
+    /// their modulation, while their −6 dB edges stay centred on the channel (9 kHz RBW); and a
+    /// fourth whose extent a neighbour's skirt widened on one side (its top is right, its middle
+    /// 3 kHz off)
     #[test]
-    fn modulated_carriers_are_placed_by_their_edges() {
+    fn modulated_carriers_are_placed_by_top_and_edges() {
         let channels = [954e3, 1350e3, 1404e3];
         let wander = [1296.0, -1152.0, 750.0];
-        let peaks: Vec<FoundPeak> = channels
+        let mut peaks: Vec<FoundPeak> = channels
             .iter()
             .zip(wander)
             .map(|(&c, w)| FoundPeak {
@@ -613,6 +622,12 @@ mod tests {
                 ..peak(c + w, 50.0)
             })
             .collect();
+        peaks.push(FoundPeak {
+            left_hz: 1413.3e3,
+            right_hz: 1436.4e3,
+            width_hz: 23.1e3,
+            ..peak(1421.3e3, 40.0)
+        });
         let lines: Vec<Line> = peaks
             .iter()
             .map(|p| Line {
@@ -620,14 +635,14 @@ mod tests {
                 sigma_hz: 190.0,
                 weight: 1.5,
                 strength_db: 20.0,
-                width_hz: 9.2e3,
+                width_hz: p.width_hz,
             })
             .collect();
-        let sets = broadcast(&peaks, &lines, &[true; 3], &[true; 3], &[true; 3]);
+        let sets = broadcast(&peaks, &lines, &[true; 4], &[true; 4], &[true; 4]);
         assert_eq!(sets.len(), 1, "{sets:?}");
         assert_eq!(sets[0].0.step_hz, 9e3);
         let channel_numbers: Vec<u32> = sets[0].1.iter().map(|m| m.1).collect();
-        assert_eq!(channel_numbers, vec![106, 150, 156]);
+        assert_eq!(channel_numbers, vec![106, 150, 156, 158]);
     }
 
     /// A 100 kHz converter falling at 20 dB/decade (the trapezoid envelope between its break
