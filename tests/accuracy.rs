@@ -123,14 +123,17 @@ fn truth_lines_show_in_the_rendered_trace() {
 
 /// Accuracy targets of the attribution engine on 40 cases (release; `--ignored`).
 /// Levels the engine reached on these 40 cases when this guard was set (release build): a
-/// change that falls below them is a regression. They are not the targets.
+/// change that falls below them is a regression. They are not the targets. Set on 2026-12-02
+/// at recall 0.67, precision 0.79, top-1 0.71 (40 cases); the precision of these 40 fell from
+/// 0.88 with the narrower floor window while that of the 200-case sets rose or held (0.85 to
+/// 0.84, 0.80 to 0.82, 0.80 to 0.82), so a 40-case precision moves by several hundredths.
 const TODAY: Levels = Levels {
-    recall: 0.55,
-    precision: 0.82,
+    recall: 0.62,
+    precision: 0.75,
     median_f0_rel_error: spurhound::synth::random::targets::MEDIAN_F0_REL_ERROR,
     origin: 0.9,
     kind: 0.9,
-    top1: 0.6,
+    top1: 0.65,
 };
 
 #[test]
