@@ -30,8 +30,8 @@ pub struct FloorParams {
     /// 0.015 decade (±3.5 %), lets the floor follow a continuum's dips (the sinc lobes of an
     /// unresolved comb, a few per cent wide in a radiated scan), where a line stands out that a
     /// wider window's floor would bury; measured on the accuracy harness against 0.1 decade over
-    /// three sets of 200 cases: top-1 +0.02 to +0.03, peak recall +0.01, family recall and
-    /// precision within ±0.02 of before.
+    /// three sets of 200 cases: top-1 +0.02 to +0.03, peak recall +0.01, family recall
+    /// +0.003 to +0.006, precision −0.01 to +0.03.
     pub window_decades: f64,
     /// Half-width of the envelope window in RBWs (at least), when the RBW is known.
     pub window_rbw: f64,
