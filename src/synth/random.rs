@@ -476,12 +476,74 @@ pub(crate) fn floor_at(scene: &Scene, freq_hz: f64) -> f64 {
     }
 }
 
-/// What a line at `freq_hz` must stand out of, dBµV rms: the floor power-summed with every comb
+/// The noise floor as the display shows it at `freq_hz`, dBµV: the floor's rms, raised for a
+/// peak detector to the median of the largest envelope reading over its display bucket
+/// ([`peak_noise_offset_db`]). A line must stand out of what the display shows, not of an rms
+/// the display never draws.
+fn displayed_floor_at(scene: &Scene, freq_hz: f64) -> f64 {
+    let s = &scene.scan;
+    let rms = floor_at(scene, freq_hz);
+    if s.detector != Detector::Peak {
+        return rms;
+    }
+    // correlation scale of the swept envelope in frequency (see `render`'s noise grid)
+    let corr_hz = 2.0 * std::f64::consts::LN_2.sqrt() * s.rbw_hz
+        / (std::f64::consts::PI * s.sweep_time_factor);
+    rms + peak_noise_offset_db(step_at(s, freq_hz), corr_hz)
+}
+
+/// Rate (per Hz of sweep) at which a Rayleigh envelope crosses upwards the level ρ·rms, for
+/// complex Gaussian noise whose normalised correlation has curvature β = −ρ''(0).
+///
+/// # Formula
+/// ```text
+/// N(ρ) = √(β/π)·ρ·exp(−ρ²)
+/// ```
+/// # Source
+/// Rice's level-crossing rate of a Rayleigh envelope; with Clarke's correlation J0(2π·f_m·τ)
+/// (β = 2π²·f_m²) it is the familiar √(2π)·f_m·ρ·exp(−ρ²) of fading channels (from memory).
+pub(crate) fn envelope_upcrossing_rate(rho: f64, beta: f64) -> f64 {
+    (beta / std::f64::consts::PI).sqrt() * rho * (-rho * rho).exp()
+}
+
+/// How far (dB) the peak detector's reading of noise sits above the noise rms: the median of
+/// the largest envelope value over a bucket `width_hz` wide, for an envelope whose complex
+/// correlation is exp(−Δf²/(2s²)) (s = `corr_hz`, β = 1/s²). The largest stays under ρ·rms when
+/// the bucket starts under it and the envelope does not cross it upwards inside; with crossings
+/// few and apart, they are counted as Poisson. Never below 0 (one reading's median lies 1.6 dB
+/// under its rms, and a line is not easier to see for that).
+///
+/// # Formula
+/// ```text
+/// P(max < ρ) ≈ (1 − exp(−ρ²))·exp(−w·N(ρ));   offset = max(0, 10·log10 ρ²_median)
+/// ```
+/// # Source
+/// Rice's level-crossing rate ([`envelope_upcrossing_rate`]) with the Poisson approximation of
+/// the crossings, the usual estimate of the distribution of the maximum of a smooth process.
+pub(crate) fn peak_noise_offset_db(width_hz: f64, corr_hz: f64) -> f64 {
+    let beta = 1.0 / (corr_hz * corr_hz).max(f64::MIN_POSITIVE);
+    let below = |z: f64| {
+        (1.0 - (-z).exp()) * (-width_hz.max(0.0) * envelope_upcrossing_rate(z.sqrt(), beta)).exp()
+    };
+    // P(max < ρ) rises with ρ² from ln 2 (where it is at most 1/2) on
+    let (mut lo, mut hi) = (std::f64::consts::LN_2, 60.0);
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if below(mid) < 0.5 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    (10.0 * (0.5 * (lo + hi)).log10()).max(0.0)
+}
+
+/// What a line at `freq_hz` must stand out of, dBµV: the displayed floor power-summed with every comb
 /// of the scene too fine to resolve there (its coherent level through the RBW fills every bucket,
 /// so a line under it does not show).
 fn background_at(scene: &Scene, freq_hz: f64) -> f64 {
     let s = &scene.scan;
-    let mut power = 10f64.powf(floor_at(scene, freq_hz) / 10.0);
+    let mut power = 10f64.powf(displayed_floor_at(scene, freq_hz) / 10.0);
     let sources = scene
         .switching
         .iter()
@@ -1306,7 +1368,7 @@ fn visible_lines(p: &Periodic, is_clock: bool, scene: &Scene) -> Vec<TruthLine> 
             let floor_dbuv = if p.f0_hz > resolution(s, freq_hz) {
                 background_at(scene, freq_hz)
             } else {
-                floor_at(scene, freq_hz)
+                displayed_floor_at(scene, freq_hz)
             };
             // a dithered harmonic wider than the spacing has merged with its neighbours into a
             // continuum: it is part of the background, not a line
@@ -1959,6 +2021,53 @@ mod tests {
             Some(783_756.0),
             None
         ));
+    }
+
+    #[test]
+    fn envelope_crossings_and_the_median_of_the_largest() {
+        // source: from memory, the level-crossing rate of a Rayleigh-fading envelope with
+        // Doppler f_m: N = √(2π)·f_m·ρ·exp(−ρ²); Clarke's correlation J0(2π·f_m·τ) has
+        // curvature β = 2π²·f_m². At ρ = 1 and f_m = 100 Hz: N = 92.2 crossings per second.
+        let fm = 100.0;
+        let beta = 2.0 * std::f64::consts::PI.powi(2) * fm * fm;
+        let n = envelope_upcrossing_rate(1.0, beta);
+        assert!((n - (2.0 * std::f64::consts::PI).sqrt() * fm * (-1f64).exp()).abs() < 1e-9);
+        assert!((n - 92.2).abs() < 0.05);
+        // a bucket far narrower than the correlation holds one reading: the median of a
+        // Rayleigh envelope is √ln2 of its rms (−1.59 dB), which the offset clamps to 0
+        assert_eq!(peak_noise_offset_db(1.0, 1e6), 0.0);
+        // wider buckets read higher, and the offset grows slowly (like ln ln of the width)
+        let a = peak_noise_offset_db(10.0, 1.0);
+        let b = peak_noise_offset_db(100.0, 1.0);
+        assert!(a > 3.0 && b > a + 1.0 && b < a + 3.0, "{a:.2} {b:.2}");
+    }
+
+    #[test]
+    fn the_displayed_floor_matches_the_rendered_noise() {
+        // a noise-only radiated scan, 30-1000 MHz in 922 points with a 120 kHz RBW (steps of
+        // 8.8 B6): the median of the peak-detector trace must sit where the crossing-rate
+        // estimate puts it (16.3 dBµV for a 10 dBµV rms floor; the render reads 16.15), within
+        // half a dB
+        let mut sc = merged_scene();
+        sc.switching.clear();
+        sc.scan.spacing = Spacing::Linear;
+        sc.scan.start_hz = 30e6;
+        sc.scan.stop_hz = 1e9;
+        sc.scan.points = 922;
+        sc.scan.rbw_hz = 120e3;
+        sc.scan.detector = Detector::Peak;
+        sc.floor = Some(crate::synth::scene::Floor {
+            level_dbuv: 10.0,
+            slope_db_per_decade: 0.0,
+        });
+        let scan = crate::synth::render::render(&sc).expect("render");
+        let mut levels: Vec<f64> = scan.level_dbuv.to_vec();
+        let median = crate::floor::quantile_in_place(&mut levels, 0.5);
+        let predicted = displayed_floor_at(&sc, 500e6);
+        assert!(
+            (median - predicted).abs() < 0.5,
+            "median {median:.2} vs {predicted:.2}"
+        );
     }
 
     #[test]
