@@ -16,7 +16,7 @@ use crate::floor::Floor;
 use crate::peaks::FoundPeak;
 use crate::scan::Scan;
 use envelope::{Envelope, Harmonic};
-use sieve::{Candidate, Line, Pattern, Sieve, SieveParams};
+use sieve::{Candidate, Line, MAX_SUB_MULTIPLE, Pattern, SUB_MULTIPLE_KEEPS, Sieve, SieveParams};
 
 /// Settings of the family search.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -262,6 +262,7 @@ pub fn find_families(
             found.push(c);
         }
     }
+    merge_multiples(&mut found, &sieve, peaks, params.min_hit_ratio);
     let mut out: Vec<FamilyFit> = found
         .into_iter()
         .map(|c| {
@@ -291,6 +292,146 @@ pub fn find_families(
         ));
     }
     out
+}
+
+/// Whether the family at `high` is the family at `low` seen again: its fundamental is k·f0 of
+/// `low` (k = 2 … [`MAX_SUB_MULTIPLE`]) within three of their joint uncertainties, and its lines
+/// do not stand out over the harmonics of `low` around them (the median of their excess over
+/// the median level of `low`'s nearest members, three on each side, is at most
+/// [`BRIGHT_INTRUDER_DB`]). Returns k.
+///
+/// The search claims the strongest family first; a converter whose every third harmonic stands
+/// out of a floor that hides the rest is found at 3·f0, and its other harmonics come back later
+/// as a family at f0 (an odd-only one when 2·f0 took the even harmonics). Two oscillators
+/// locked at k:1 within a few ppm are one source for the report; a second oscillator at k·f0
+/// whose lines rise above the first one's envelope (a 50 MHz clock over a 25 MHz one's even
+/// harmonics) stays apart.
+fn multiple_of(
+    low: &Candidate,
+    high: &Candidate,
+    lines: &[Line],
+    peaks: &[FoundPeak],
+) -> Option<u32> {
+    let ratio = high.fundamental_hz / low.fundamental_hz;
+    let k = ratio.round();
+    if !(2.0..=f64::from(MAX_SUB_MULTIPLE)).contains(&k) {
+        return None;
+    }
+    let sigma = |c: &Candidate| c.reported_sigma_hz.max(c.sigma_hz * 1e-3);
+    let tol = 3.0 * (k * sigma(low)).hypot(sigma(high));
+    if (high.fundamental_hz - k * low.fundamental_hz).abs() > tol {
+        return None;
+    }
+    let mut excess: Vec<f64> = high
+        .hits
+        .iter()
+        .filter_map(|&(i, _)| {
+            let n = (lines[i].freq_hz / low.fundamental_hz).round() as u32;
+            let at = low.hits.partition_point(|h| h.1 < n);
+            let lo = at.saturating_sub(3);
+            let hi = (at + 3).min(low.hits.len());
+            let mut around: Vec<f64> = low.hits[lo..hi]
+                .iter()
+                .filter(|h| h.1 != n)
+                .map(|h| peaks[h.0].level_dbuv)
+                .collect();
+            (!around.is_empty())
+                .then(|| peaks[i].level_dbuv - crate::floor::quantile_in_place(&mut around, 0.5))
+        })
+        .collect();
+    if !excess.is_empty() && crate::floor::quantile_in_place(&mut excess, 0.5) > BRIGHT_INTRUDER_DB
+    {
+        return None;
+    }
+    Some(k as u32)
+}
+
+/// The lines `union` as one comb of every harmonic near `f0`: each takes its harmonic number
+/// at `f0` (the closest line per number), the fundamental is refitted by weighted least squares
+/// and the comb is scored over the whole span of the lines ([`Sieve::candidate_of`]: the
+/// families it joins each passed the search's tests, so it is not cut into runs again).
+fn joint_family(sieve: &Sieve, union: &[usize], f0: f64) -> Option<Candidate> {
+    let mut by_n: Vec<(u32, usize, f64)> = union
+        .iter()
+        .map(|&i| {
+            let f = sieve.lines[i].freq_hz;
+            let n = (f / f0).round().max(1.0);
+            (n as u32, i, (f - n * f0).abs())
+        })
+        .collect();
+    by_n.sort_by(|a, b| a.0.cmp(&b.0).then(a.2.total_cmp(&b.2)));
+    by_n.dedup_by_key(|h| h.0);
+    let members: Vec<refine::Member> = by_n
+        .iter()
+        .map(|&(n, i, _)| refine::Member {
+            n,
+            freq_hz: sieve.lines[i].freq_hz,
+            sigma_hz: sieve.lines[i].sigma_hz,
+        })
+        .collect();
+    let fit = refine::fit(&members)?;
+    let hits = by_n.iter().map(|&(n, i, _)| (i, n)).collect();
+    Some(sieve.candidate_of(
+        hits,
+        fit.fundamental_hz,
+        fit.stated_sigma_hz,
+        fit.sigma_hz,
+        Pattern::All,
+    ))
+}
+
+/// Joins the families that are one oscillator found more than once ([`multiple_of`]): the
+/// lines of a family and of every family at a multiple of its fundamental are scored again as
+/// one comb of every harmonic of the lower fundamental ([`joint_family`]), and the joint family
+/// replaces them when it keeps [`SUB_MULTIPLE_KEEPS`] of their lines and sees at least
+/// `min_hit_ratio` of the harmonics it predicts (so an odd-only comb does not become an
+/// every-harmonic one with half of them missing).
+fn merge_multiples(
+    found: &mut Vec<Candidate>,
+    sieve: &Sieve,
+    peaks: &[FoundPeak],
+    min_hit_ratio: f64,
+) {
+    let mut a = 0;
+    while a < found.len() {
+        let multiples: Vec<usize> = (0..found.len())
+            .filter(|&b| {
+                b != a
+                    && found[b].fundamental_hz > found[a].fundamental_hz
+                    && multiple_of(&found[a], &found[b], sieve.lines, peaks).is_some()
+            })
+            .collect();
+        if multiples.is_empty() {
+            a += 1;
+            continue;
+        }
+        let union: Vec<usize> = std::iter::once(a)
+            .chain(multiples.iter().copied())
+            .flat_map(|k| found[k].hits.iter().map(|h| h.0))
+            .collect();
+        let joint = joint_family(sieve, &union, found[a].fundamental_hz).filter(|j| {
+            let kept = union
+                .iter()
+                .filter(|&&i| j.hits.iter().any(|h| h.0 == i))
+                .count();
+            let seen = j.hits.len() as f64;
+            kept as f64 >= SUB_MULTIPLE_KEEPS * union.len() as f64
+                && seen >= min_hit_ratio * (seen + j.misses as f64)
+        });
+        let Some(joint) = joint else {
+            a += 1;
+            continue;
+        };
+        found[a] = joint;
+        let mut gone = multiples;
+        gone.sort_unstable_by(|x, y| y.cmp(x));
+        for b in gone {
+            found.remove(b);
+            if b < a {
+                a -= 1;
+            }
+        }
+    }
 }
 
 /// A fundamental within this share of an earlier family's may be a fragment of that family:
@@ -698,5 +839,82 @@ mod tests {
             &run,
             &lines
         ));
+    }
+
+    /// A comb of every harmonic of 100 kHz, n = 1 … 30, levels falling 1 dB per harmonic (the
+    /// `bright` ones raised), split as the search may find it: every third harmonic first (a
+    /// family at 300 kHz), the rest later (a family at 100 kHz).
+    fn split_comb(bright_db: f64) -> (Vec<FoundPeak>, Vec<Line>, Vec<Candidate>) {
+        let f0 = 100e3;
+        let peaks: Vec<FoundPeak> = (1..=30)
+            .map(|n| {
+                let raised = if n % 3 == 0 { bright_db } else { 0.0 };
+                peak(f64::from(n) * f0, 80.0 - f64::from(n) + raised)
+            })
+            .collect();
+        let lines: Vec<Line> = peaks
+            .iter()
+            .map(|p| Line {
+                freq_hz: p.freq_hz,
+                sigma_hz: 100.0,
+                weight: 1.5,
+                strength_db: 20.0,
+                width_hz: p.width_hz,
+            })
+            .collect();
+        let family = |step: f64, idx: Vec<usize>| {
+            let hits: Vec<(usize, u32)> = idx
+                .iter()
+                .map(|&i| (i, ((i as f64 + 1.0) * f0 / step).round() as u32))
+                .collect();
+            Candidate {
+                fundamental_hz: step,
+                sigma_hz: 5.0,
+                pattern: Pattern::All,
+                value: 1.5 * hits.len() as f64,
+                excess: 1.5 * hits.len() as f64,
+                hits,
+                misses: 0,
+                reported_sigma_hz: 5.0,
+            }
+        };
+        let thirds = family(3.0 * f0, (0..30).filter(|i| (i + 1) % 3 == 0).collect());
+        let rest = family(f0, (0..30).filter(|i| (i + 1) % 3 != 0).collect());
+        (peaks, lines, vec![thirds, rest])
+    }
+
+    #[test]
+    fn a_comb_found_as_itself_and_its_multiple_is_one_family() {
+        // fact of the trade (common practice): every harmonic of 3·f0 is a harmonic of f0, so
+        // one oscillator at f0 explains both; the report must not name it twice
+        let (peaks, lines, mut found) = split_comb(0.0);
+        let sieve = Sieve {
+            lines: &lines,
+            free: vec![false; lines.len()],
+            min_fundamental_hz: 15e3,
+            occupied: &[],
+            params: SieveParams::default(),
+        };
+        merge_multiples(&mut found, &sieve, &peaks, 0.6);
+        assert_eq!(found.len(), 1);
+        assert!((found[0].fundamental_hz - 100e3).abs() < 1.0);
+        assert_eq!(found[0].hits.len(), 30);
+        assert_eq!(found[0].misses, 0);
+    }
+
+    #[test]
+    fn a_brighter_oscillator_at_a_multiple_stays_apart() {
+        // lines at 3·f0 that stand 15 dB over the comb's envelope are a second oscillator
+        // (a clock locked to three times another's frequency), not the first one's harmonics
+        let (peaks, lines, mut found) = split_comb(15.0);
+        let sieve = Sieve {
+            lines: &lines,
+            free: vec![false; lines.len()],
+            min_fundamental_hz: 15e3,
+            occupied: &[],
+            params: SieveParams::default(),
+        };
+        merge_multiples(&mut found, &sieve, &peaks, 0.6);
+        assert_eq!(found.len(), 2);
     }
 }

@@ -183,6 +183,47 @@ impl Sieve<'_> {
         c
     }
 
+    /// A candidate made of given hits (line, harmonic number) at a fundamental already fitted,
+    /// over the whole span of its hits (not cut into runs: the hits are taken as one family),
+    /// with its misses (clearly absent harmonics between its first and last hit), value and
+    /// excess as [`Sieve::score`] gives them (the lines need not be free).
+    pub fn candidate_of(
+        &self,
+        mut hits: Vec<(usize, u32)>,
+        f0: f64,
+        sigma_f0: f64,
+        reported_sigma_hz: f64,
+        pattern: Pattern,
+    ) -> Candidate {
+        hits.sort_by_key(|h| h.1);
+        hits.dedup_by_key(|h| h.1);
+        let step = if pattern == Pattern::OddOnly { 2 } else { 1 };
+        let misses = match (hits.first(), hits.last()) {
+            (Some(a), Some(b)) => (a.1..=b.1)
+                .step_by(step)
+                .filter(|&n| {
+                    hits.binary_search_by_key(&n, |h| h.1).is_err()
+                        && !self.is_occupied(f64::from(n) * f0)
+                })
+                .count(),
+            _ => 0,
+        };
+        let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
+        let value = gain - self.params.miss_penalty * misses as f64;
+        let mut c = Candidate {
+            fundamental_hz: f0,
+            sigma_hz: sigma_f0,
+            pattern,
+            hits,
+            misses,
+            value,
+            excess: value,
+            reported_sigma_hz,
+        };
+        c.excess = value - self.chance_gain(&c);
+        c
+    }
+
     /// Tolerance of a hit on line `l` at harmonic `n` of a fundamental `f0 ± sigma_f0`.
     fn tolerance(&self, l: &Line, n: f64, f0: f64, sigma_f0: f64) -> f64 {
         // a hit must name its harmonic without doubt: never wider than a tenth of f0
