@@ -883,19 +883,23 @@ mod tests {
         (peaks, lines, vec![thirds, rest])
     }
 
+    /// A sieve over `lines`, all of them claimed, with no occupied interval.
+    fn claimed(lines: &[Line]) -> Sieve<'_> {
+        Sieve {
+            lines,
+            free: vec![false; lines.len()],
+            min_fundamental_hz: 15e3,
+            occupied: &[],
+            params: SieveParams::default(),
+        }
+    }
+
     #[test]
     fn a_comb_found_as_itself_and_its_multiple_is_one_family() {
         // fact of the trade (common practice): every harmonic of 3·f0 is a harmonic of f0, so
         // one oscillator at f0 explains both; the report must not name it twice
         let (peaks, lines, mut found) = split_comb(0.0);
-        let sieve = Sieve {
-            lines: &lines,
-            free: vec![false; lines.len()],
-            min_fundamental_hz: 15e3,
-            occupied: &[],
-            params: SieveParams::default(),
-        };
-        merge_multiples(&mut found, &sieve, &peaks, 0.6);
+        merge_multiples(&mut found, &claimed(&lines), &peaks, 0.6);
         assert_eq!(found.len(), 1);
         assert!((found[0].fundamental_hz - 100e3).abs() < 1.0);
         assert_eq!(found[0].hits.len(), 30);
@@ -907,14 +911,7 @@ mod tests {
         // lines at 3·f0 that stand 15 dB over the comb's envelope are a second oscillator
         // (a clock locked to three times another's frequency), not the first one's harmonics
         let (peaks, lines, mut found) = split_comb(15.0);
-        let sieve = Sieve {
-            lines: &lines,
-            free: vec![false; lines.len()],
-            min_fundamental_hz: 15e3,
-            occupied: &[],
-            params: SieveParams::default(),
-        };
-        merge_multiples(&mut found, &sieve, &peaks, 0.6);
+        merge_multiples(&mut found, &claimed(&lines), &peaks, 0.6);
         assert_eq!(found.len(), 2);
     }
 }

@@ -167,6 +167,19 @@ impl Sieve<'_> {
         best.dedup_by_key(|h| h.0);
         let hits: Vec<(usize, u32)> = best.iter().map(|&(n, i, _)| (i, n)).collect();
         let (hits, misses) = self.alive_run(f0, pattern, &hits);
+        self.valued(hits, misses, f0, sigma_f0, sigma_f0, pattern)
+    }
+
+    /// A candidate with its value (hits weighted, misses charged) and its excess over chance.
+    fn valued(
+        &self,
+        hits: Vec<(usize, u32)>,
+        misses: usize,
+        f0: f64,
+        sigma_f0: f64,
+        reported_sigma_hz: f64,
+        pattern: Pattern,
+    ) -> Candidate {
         let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
         let value = gain - self.params.miss_penalty * misses as f64;
         let mut c = Candidate {
@@ -177,7 +190,7 @@ impl Sieve<'_> {
             misses,
             value,
             excess: value,
-            reported_sigma_hz: sigma_f0,
+            reported_sigma_hz,
         };
         c.excess = value - self.chance_gain(&c);
         c
@@ -208,20 +221,7 @@ impl Sieve<'_> {
                 .count(),
             _ => 0,
         };
-        let gain: f64 = hits.iter().map(|&(i, _)| self.lines[i].weight).sum();
-        let value = gain - self.params.miss_penalty * misses as f64;
-        let mut c = Candidate {
-            fundamental_hz: f0,
-            sigma_hz: sigma_f0,
-            pattern,
-            hits,
-            misses,
-            value,
-            excess: value,
-            reported_sigma_hz,
-        };
-        c.excess = value - self.chance_gain(&c);
-        c
+        self.valued(hits, misses, f0, sigma_f0, reported_sigma_hz, pattern)
     }
 
     /// Tolerance of a hit on line `l` at harmonic `n` of a fundamental `f0 ± sigma_f0`.
