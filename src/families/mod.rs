@@ -247,10 +247,7 @@ pub fn find_families(
         let mut c = sieve
             .split_common_divisor(&c, params.min_hit_ratio, params.min_value)
             .unwrap_or(c);
-        let seen = c.hits.len();
-        let ratio = seen as f64 / (seen + c.misses) as f64;
-        if seen < params.min_harmonics || c.value < params.min_value || ratio < params.min_hit_ratio
-        {
+        if !is_family(&c, &sieve, params) {
             break;
         }
         drop_intruders(&mut c.hits, &widths);
@@ -432,6 +429,27 @@ fn merge_multiples(
             }
         }
     }
+}
+
+/// Whether a candidate is a family: at least `min_harmonics` members, a value of at least
+/// `min_value`, and `min_hit_ratio` of the harmonics it predicts seen, or, for an
+/// every-harmonic candidate, of its odd harmonics (a pulse train near 50 % duty has even
+/// harmonics 10 dB and more under their odd neighbours, |sin(π·n·d)| with d ≈ 0.5 (METHODS §5),
+/// so many of them are expected to sink under the threshold; its sub-multiple f0/2 sees none of
+/// its odd slots and stays out).
+fn is_family(c: &Candidate, sieve: &Sieve, params: &FamilyParams) -> bool {
+    let seen = c.hits.len();
+    if seen < params.min_harmonics || c.value < params.min_value {
+        return false;
+    }
+    let ratio = seen as f64 / (seen + c.misses) as f64;
+    if ratio >= params.min_hit_ratio {
+        return true;
+    }
+    let (odd_hits, odd_misses) = sieve.odd_slots(c);
+    c.pattern == Pattern::All
+        && odd_hits >= params.min_harmonics
+        && odd_hits as f64 >= params.min_hit_ratio * (odd_hits + odd_misses) as f64
 }
 
 /// A fundamental within this share of an earlier family's may be a fragment of that family:
@@ -913,5 +931,40 @@ mod tests {
         let (peaks, lines, mut found) = split_comb(15.0);
         merge_multiples(&mut found, &claimed(&lines), &peaks, 0.6);
         assert_eq!(found.len(), 2);
+    }
+
+    /// A candidate at 1 MHz with the given harmonic numbers as hits, over lines at exactly
+    /// those harmonics, scored by the sieve (nothing else occupied).
+    fn near_square(numbers: &[u32]) -> (Vec<Line>, Candidate) {
+        let lines: Vec<Line> = numbers
+            .iter()
+            .map(|&n| Line {
+                freq_hz: f64::from(n) * 1e6,
+                sigma_hz: 300.0,
+                weight: 1.5,
+                strength_db: 20.0,
+                width_hz: 10e3,
+            })
+            .collect();
+        let c = claimed(&lines).candidate_of(
+            numbers.iter().enumerate().map(|(i, &n)| (i, n)).collect(),
+            1e6,
+            10.0,
+            10.0,
+            Pattern::All,
+        );
+        (lines, c)
+    }
+
+    #[test]
+    fn a_near_square_wave_is_a_family_without_its_even_harmonics() {
+        // odd harmonics 1-19 with only the 2nd of the even ones: 11 of 19 slots (0.58), but
+        // every odd slot; a 50 % duty pulse train has no even harmonics at all (METHODS §5)
+        let (lines, c) = near_square(&[1, 2, 3, 5, 7, 9, 11, 13, 15, 17, 19]);
+        assert_eq!(c.misses, 8);
+        assert!(is_family(&c, &claimed(&lines), &FamilyParams::default()));
+        // the same count of slots seen, but odd ones missing too: no family
+        let (lines, c) = near_square(&[1, 2, 3, 4, 6, 8, 10, 12, 14, 16, 19]);
+        assert!(!is_family(&c, &claimed(&lines), &FamilyParams::default()));
     }
 }

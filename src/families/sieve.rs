@@ -353,6 +353,23 @@ impl Sieve<'_> {
         (hits[best.0..=best.1].to_vec(), best.2)
     }
 
+    /// Hits and clearly absent harmonics among the odd slots of an every-harmonic candidate's
+    /// span (from its first to its last hit).
+    pub fn odd_slots(&self, c: &Candidate) -> (usize, usize) {
+        let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
+            return (0, 0);
+        };
+        let (mut hits, mut misses) = (0, 0);
+        for n in (first.1..=last.1).filter(|n| n % 2 == 1) {
+            if c.hits.binary_search_by_key(&n, |h| h.1).is_ok() {
+                hits += 1;
+            } else if !self.is_occupied(f64::from(n) * c.fundamental_hz) {
+                misses += 1;
+            }
+        }
+        (hits, misses)
+    }
+
     fn is_occupied(&self, freq_hz: f64) -> bool {
         let k = self.occupied.partition_point(|iv| iv.0 <= freq_hz);
         k > 0 && freq_hz <= self.occupied[k - 1].1
