@@ -31,15 +31,27 @@ fn args() -> Args {
     };
     let mut it = std::env::args().skip(1);
     while let Some(x) = it.next() {
-        match x.as_str() {
-            "--seed" => a.seed = it.next().and_then(|v| v.parse().ok()).expect("--seed S"),
-            "--verbose" | "-v" => a.verbose = true,
-            "--max-points" => a.max_points = it.next().and_then(|v| v.parse().ok()),
-            other => a.n = other.parse().expect("N: number of cases"),
+        let ok = match x.as_str() {
+            "--seed" => it.next().and_then(|v| v.parse().ok()).map(|v| a.seed = v),
+            "--verbose" | "-v" => {
+                a.verbose = true;
+                Some(())
+            }
+            "--max-points" => it
+                .next()
+                .and_then(|v| v.parse().ok())
+                .map(|v| a.max_points = Some(v)),
+            other => other.parse().ok().map(|v| a.n = v),
+        };
+        if ok.is_none() {
+            eprintln!("unexpected argument {x:?}\n{USAGE}");
+            std::process::exit(2);
         }
     }
     a
 }
+
+const USAGE: &str = "usage: cargo run --release --example accuracy -- [N=200] [--seed S=1] [--verbose] [--max-points P]";
 
 /// The harness's mix ([`CaseOptions::harness`]), with an optional cap on the points.
 fn options(seed: u64, max_points: Option<usize>) -> CaseOptions {
