@@ -746,6 +746,20 @@ mod tests {
         }
     }
 
+    /// The sieve's view of `peaks`: each a line at its frequency with the given σ.
+    fn lines_at(peaks: &[FoundPeak], sigma_hz: f64) -> Vec<Line> {
+        peaks
+            .iter()
+            .map(|p| Line {
+                freq_hz: p.freq_hz,
+                sigma_hz,
+                weight: 1.5,
+                strength_db: 20.0,
+                width_hz: p.width_hz,
+            })
+            .collect()
+    }
+
     fn peak(freq_hz: f64, level_dbuv: f64) -> FoundPeak {
         FoundPeak {
             index: 0,
@@ -787,16 +801,7 @@ mod tests {
             width_hz: 23.1e3,
             ..peak(1421.3e3, 40.0)
         });
-        let lines: Vec<Line> = peaks
-            .iter()
-            .map(|p| Line {
-                freq_hz: p.freq_hz,
-                sigma_hz: 190.0,
-                weight: 1.5,
-                strength_db: 20.0,
-                width_hz: p.width_hz,
-            })
-            .collect();
+        let lines = lines_at(&peaks, 190.0);
         let sets = broadcast(&peaks, &lines, &[true; 4], &[true; 4], &[true; 4]);
         assert_eq!(sets.len(), 1, "{sets:?}");
         assert_eq!(sets[0].0.step_hz, 9e3);
@@ -870,16 +875,7 @@ mod tests {
                 peak(f64::from(n) * f0, 80.0 - f64::from(n) + raised)
             })
             .collect();
-        let lines: Vec<Line> = peaks
-            .iter()
-            .map(|p| Line {
-                freq_hz: p.freq_hz,
-                sigma_hz: 100.0,
-                weight: 1.5,
-                strength_db: 20.0,
-                width_hz: p.width_hz,
-            })
-            .collect();
+        let lines = lines_at(&peaks, 100.0);
         let family = |step: f64, idx: Vec<usize>| {
             let hits: Vec<(usize, u32)> = idx
                 .iter()
