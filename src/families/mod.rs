@@ -295,7 +295,7 @@ pub fn find_families(
 /// `low` (k = 2 … [`MAX_SUB_MULTIPLE`]) within three of their joint uncertainties, and its lines
 /// do not stand out over the harmonics of `low` around them (the median of their excess over
 /// the median level of `low`'s nearest members, three on each side, is at most
-/// [`BRIGHT_INTRUDER_DB`]). Returns k.
+/// [`BRIGHT_INTRUDER_DB`]).
 ///
 /// The search claims the strongest family first; a converter whose every third harmonic stands
 /// out of a floor that hides the rest is found at 3·f0, and its other harmonics come back later
@@ -303,21 +303,16 @@ pub fn find_families(
 /// locked at k:1 within a few ppm are one source for the report; a second oscillator at k·f0
 /// whose lines rise above the first one's envelope (a 50 MHz clock over a 25 MHz one's even
 /// harmonics) stays apart.
-fn multiple_of(
-    low: &Candidate,
-    high: &Candidate,
-    lines: &[Line],
-    peaks: &[FoundPeak],
-) -> Option<u32> {
+fn multiple_of(low: &Candidate, high: &Candidate, lines: &[Line], peaks: &[FoundPeak]) -> bool {
     let ratio = high.fundamental_hz / low.fundamental_hz;
     let k = ratio.round();
     if !(2.0..=f64::from(MAX_SUB_MULTIPLE)).contains(&k) {
-        return None;
+        return false;
     }
     let sigma = |c: &Candidate| c.reported_sigma_hz.max(c.sigma_hz * 1e-3);
     let tol = 3.0 * (k * sigma(low)).hypot(sigma(high));
     if (high.fundamental_hz - k * low.fundamental_hz).abs() > tol {
-        return None;
+        return false;
     }
     let mut excess: Vec<f64> = high
         .hits
@@ -338,9 +333,9 @@ fn multiple_of(
         .collect();
     if !excess.is_empty() && crate::floor::quantile_in_place(&mut excess, 0.5) > BRIGHT_INTRUDER_DB
     {
-        return None;
+        return false;
     }
-    Some(k as u32)
+    true
 }
 
 /// The lines `union` as one comb of every harmonic near `f0`: each takes its harmonic number
@@ -395,7 +390,7 @@ fn merge_multiples(
             .filter(|&b| {
                 b != a
                     && found[b].fundamental_hz > found[a].fundamental_hz
-                    && multiple_of(&found[a], &found[b], sieve.lines, peaks).is_some()
+                    && multiple_of(&found[a], &found[b], sieve.lines, peaks)
             })
             .collect();
         if multiples.is_empty() {

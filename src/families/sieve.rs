@@ -212,13 +212,7 @@ impl Sieve<'_> {
         hits.dedup_by_key(|h| h.1);
         let step = if pattern == Pattern::OddOnly { 2 } else { 1 };
         let misses = match (hits.first(), hits.last()) {
-            (Some(a), Some(b)) => (a.1..=b.1)
-                .step_by(step)
-                .filter(|&n| {
-                    hits.binary_search_by_key(&n, |h| h.1).is_err()
-                        && !self.is_occupied(f64::from(n) * f0)
-                })
-                .count(),
+            (Some(a), Some(b)) => self.slots(&hits, f0, (a.1..=b.1).step_by(step)).1,
             _ => 0,
         };
         self.valued(hits, misses, f0, sigma_f0, reported_sigma_hz, pattern)
@@ -359,15 +353,27 @@ impl Sieve<'_> {
         let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
             return (0, 0);
         };
-        let (mut hits, mut misses) = (0, 0);
-        for n in (first.1..=last.1).filter(|n| n % 2 == 1) {
-            if c.hits.binary_search_by_key(&n, |h| h.1).is_ok() {
-                hits += 1;
-            } else if !self.is_occupied(f64::from(n) * c.fundamental_hz) {
-                misses += 1;
+        let odd = (first.1..=last.1).filter(|n| n % 2 == 1);
+        self.slots(&c.hits, c.fundamental_hz, odd)
+    }
+
+    /// Of the harmonic numbers `numbers` of `f0`, those hit (in `hits`, sorted by number) and
+    /// those clearly absent (neither hit nor anything over the threshold there).
+    fn slots(
+        &self,
+        hits: &[(usize, u32)],
+        f0: f64,
+        numbers: impl Iterator<Item = u32>,
+    ) -> (usize, usize) {
+        let (mut seen, mut absent) = (0, 0);
+        for n in numbers {
+            if hits.binary_search_by_key(&n, |h| h.1).is_ok() {
+                seen += 1;
+            } else if !self.is_occupied(f64::from(n) * f0) {
+                absent += 1;
             }
         }
-        (hits, misses)
+        (seen, absent)
     }
 
     fn is_occupied(&self, freq_hz: f64) -> bool {

@@ -486,9 +486,7 @@ fn displayed_floor_at(scene: &Scene, freq_hz: f64) -> f64 {
     if s.detector != Detector::Peak {
         return rms;
     }
-    // correlation scale of the swept envelope in frequency (see `render`'s noise grid)
-    let corr_hz = 2.0 * std::f64::consts::LN_2.sqrt() * s.rbw_hz
-        / (std::f64::consts::PI * s.sweep_time_factor);
+    let corr_hz = crate::synth::render::noise_correlation_hz(s.rbw_hz, s.sweep_time_factor);
     rms + peak_noise_offset_db(step_at(s, freq_hz), corr_hz)
 }
 

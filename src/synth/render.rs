@@ -719,6 +719,17 @@ fn spread_mass(
     Ok(())
 }
 
+/// Frequency scale s of the swept envelope's correlation, ρ(Δf) = exp(−Δf²/(2·s²)), for a
+/// Gaussian RBW of −6 dB width `b6_hz` swept at B6²/k Hz/s (see [`noise_plan`]).
+///
+/// # Formula
+/// ```text
+/// s = 2·√ln2·B6/(π·k)
+/// ```
+pub(crate) fn noise_correlation_hz(b6_hz: f64, sweep_time_factor: f64) -> f64 {
+    2.0 * LN_2.sqrt() * b6_hz / (PI * sweep_time_factor)
+}
+
 /// Correlated-noise grid.
 ///
 /// The envelope is observed while sweeping at B6²/k Hz/s (k = sweep_time_factor), so the
@@ -731,7 +742,7 @@ fn spread_mass(
 /// convolved with itself has std s), truncated at ±4·s_g and normalised to unit output
 /// variance. Source: derived (Gaussian filter response, constant sweep rate).
 fn noise_plan(rbw: &Rbw, k: f64, sub_lo: f64, sub_hi: f64) -> NoisePlan {
-    let s = 2.0 * LN_2.sqrt() * rbw.b6 / (PI * k);
+    let s = noise_correlation_hz(rbw.b6, k);
     let sg = s / 2f64.sqrt();
     let h = sg / 2.0;
     let nodes = ((sub_hi - sub_lo) / h).ceil() + 2.0;
