@@ -246,30 +246,31 @@ pub enum SettingsError {
 pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
     let dut = ctx.transducers.apply(scan)?;
     let ambient = correct_ambient(&dut, ctx)?;
-    let limits: Vec<LimitResult> = ctx
-        .limits
-        .iter()
-        .map(|l| LimitResult {
-            limit: l.clone(),
-            margins: margins(&dut, l),
-        })
-        .collect();
-    // the ambient floors are independent of the DUT's stages: estimate them alongside
-    // and so is the comparison of the DUT's trace with their floors
-    let ambient_side = || {
+    // the ambient floors (and the DUT's trace against them) and the DUT's margins are
+    // independent of the DUT's floor, peaks and humps: they are found alongside
+    let other_side = || {
         let amb: Vec<AmbientScan> = ambient.iter().map(|a| AmbientScan::new(&a.scan)).collect();
         let raised = ambient::raised_floor(&dut, &amb);
-        (amb, raised)
+        let limits: Vec<LimitResult> = ctx
+            .limits
+            .iter()
+            .map(|l| LimitResult {
+                limit: l.clone(),
+                margins: margins(&dut, l),
+            })
+            .collect();
+        (amb, raised, limits)
     };
-    let ((ambient_scans, raised), (floor, found, bandwidth, humps)) = std::thread::scope(|s| {
-        let amb = s.spawn(ambient_side);
+    let (other, (floor, found, bandwidth, humps)) = std::thread::scope(|s| {
+        let other = s.spawn(other_side);
         let floor = estimate_floor(&dut, &FloorParams::default());
         let found = find_peaks(&dut, &floor, &PeakParams::default());
         let bandwidth = bandwidth::classify(&dut, &found);
         let humps = bandwidth::find_humps(&dut, &floor, &found);
-        let amb = amb.join().unwrap_or_else(|_| ambient_side());
-        (amb, (floor, found, bandwidth, humps))
+        let other = other.join().unwrap_or_else(|_| other_side());
+        (other, (floor, found, bandwidth, humps))
     });
+    let (ambient_scans, raised, limits) = other;
     let evidence: Vec<PeakAmbient> = found
         .iter()
         .map(|p| {

@@ -14,7 +14,7 @@
 //! # Ok::<(), spurhound::Error>(())
 //! ```
 
-use crate::limits::interpolate::log_interp;
+use crate::limits::interpolate::{log_interp, log_interp_all};
 use crate::scan::table::read_table;
 use crate::scan::{Scan, ScanError};
 use crate::units::{FreqUnit, LevelUnit, Quantity};
@@ -131,8 +131,14 @@ impl TransducerChain {
     pub fn apply(&self, scan: &Scan) -> Result<Scan, CorrectError> {
         let mut out = scan.clone();
         for t in &self.items {
-            for (level, &f) in out.level_dbuv.iter_mut().zip(scan.freq_hz.iter()) {
-                let c = t.correction_at(f).ok_or_else(|| {
+            let corrections = log_interp_all(&t.points, &scan.freq_hz);
+            for ((level, &f), c) in out
+                .level_dbuv
+                .iter_mut()
+                .zip(&scan.freq_hz)
+                .zip(corrections)
+            {
+                let c = c.ok_or_else(|| {
                     let (min_hz, max_hz) = (t.points[0].0, t.points[t.points.len() - 1].0);
                     CorrectError::OutOfRange {
                         scan: scan.label(),

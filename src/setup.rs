@@ -255,8 +255,9 @@ fn check_floor(scan: &Scan, floor: &Floor, l: &Limit, warnings: &mut Vec<Warning
     let mut covered = 0usize;
     let mut near = 0usize;
     let mut worst: Option<(f64, f64)> = None;
+    let limit_dbuv = l.at_all(&scan.freq_hz);
     for (i, &f) in scan.freq_hz.iter().enumerate() {
-        let (Some(lim), Some(&fl)) = (l.at(f), floor.floor_dbuv.get(i)) else {
+        let (Some(lim), Some(&fl)) = (limit_dbuv[i], floor.floor_dbuv.get(i)) else {
             continue;
         };
         covered += 1;

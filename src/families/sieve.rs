@@ -33,6 +33,10 @@ pub const MAX_SUB_MULTIPLE: u32 = 6;
 /// Share of a candidate's lines that its sub-multiple must keep to compete with it.
 pub const SUB_MULTIPLE_KEEPS: f64 = 0.8;
 
+/// Fewest candidates whose rough scores are shared out between two threads (fewer are not
+/// worth a thread's start).
+const PARALLEL_CANDIDATES: usize = 256;
+
 /// Widest emission, as a share of the fundamental, that can be one harmonic.
 pub const MAX_WIDTH_SHARE: f64 = 0.7;
 
@@ -43,6 +47,28 @@ pub enum Pattern {
     All,
     /// Odd harmonics only (a 50 % duty square wave has no even harmonics).
     OddOnly,
+}
+
+/// Whether frequencies, asked in ascending order, lie in one of the sorted, disjoint occupied
+/// intervals: a pointer that only moves forward, so a run of slots costs O(slots + intervals)
+/// rather than a binary search per slot.
+struct OccupiedCursor<'a> {
+    intervals: &'a [(f64, f64)],
+    /// Index of the first interval that starts above the last frequency asked.
+    next: usize,
+}
+
+impl OccupiedCursor<'_> {
+    fn covers(&mut self, freq_hz: f64) -> bool {
+        while self
+            .intervals
+            .get(self.next)
+            .is_some_and(|iv| iv.0 <= freq_hz)
+        {
+            self.next += 1;
+        }
+        self.next > 0 && freq_hz <= self.intervals[self.next - 1].1
+    }
 }
 
 /// A scored candidate.
@@ -147,26 +173,58 @@ impl Sieve<'_> {
 
     /// Scores a fundamental with the given uncertainty and pattern.
     pub fn score(&self, f0: f64, sigma_f0: f64, pattern: Pattern) -> Candidate {
+        let hits = self.harmonic_hits(f0, sigma_f0);
+        self.score_hits(f0, sigma_f0, pattern, &hits)
+    }
+
+    /// [`Sieve::score`] for both patterns, `[All, OddOnly]`, from one pass over the lines (the
+    /// odd-only hits are the every-harmonic hits at odd numbers).
+    pub fn score_both(&self, f0: f64, sigma_f0: f64) -> [Candidate; 2] {
+        let hits = self.harmonic_hits(f0, sigma_f0);
+        [Pattern::All, Pattern::OddOnly].map(|p| self.score_hits(f0, sigma_f0, p, &hits))
+    }
+
+    /// The free lines within tolerance of a harmonic of `f0`, as `(line, harmonic number)`
+    /// ascending in number, one per harmonic (the closest).
+    fn harmonic_hits(&self, f0: f64, sigma_f0: f64) -> Vec<(usize, u32)> {
         let mut best: Vec<(u32, usize, f64)> = Vec::new(); // (n, line, normalised residual)
         for (i, l) in self.lines.iter().enumerate() {
             if !self.free[i] || l.width_hz > MAX_WIDTH_SHARE * f0 {
                 continue;
             }
             let n = (l.freq_hz / f0).round();
-            if n < 1.0 || (pattern == Pattern::OddOnly && n % 2.0 == 0.0) {
+            // the tolerance never exceeds a tenth of f0: most lines are out before it is computed
+            let d = (l.freq_hz - n * f0).abs();
+            if n < 1.0 || d > 0.1 * f0 {
                 continue;
             }
-            let tol = self.tolerance(l, n, f0, sigma_f0);
-            let r = (l.freq_hz - n * f0).abs() / tol;
+            let r = d / self.tolerance(l, n, f0, sigma_f0);
             if r <= 1.0 {
                 best.push((n as u32, i, r));
             }
         }
-        // one line per harmonic: the closest
         best.sort_by(|a, b| a.0.cmp(&b.0).then(a.2.total_cmp(&b.2)));
         best.dedup_by_key(|h| h.0);
-        let hits: Vec<(usize, u32)> = best.iter().map(|&(n, i, _)| (i, n)).collect();
-        let (hits, misses) = self.alive_run(f0, pattern, &hits);
+        best.iter().map(|&(n, i, _)| (i, n)).collect()
+    }
+
+    /// The candidate `hits` make under `pattern` (odd-only keeps the odd harmonics): its alive
+    /// run, value and excess.
+    fn score_hits(
+        &self,
+        f0: f64,
+        sigma_f0: f64,
+        pattern: Pattern,
+        hits: &[(usize, u32)],
+    ) -> Candidate {
+        let odd: Vec<(usize, u32)>;
+        let hits = if pattern == Pattern::OddOnly {
+            odd = hits.iter().copied().filter(|h| h.1 % 2 == 1).collect();
+            &odd[..]
+        } else {
+            hits
+        };
+        let (hits, misses) = self.alive_run(f0, pattern, hits);
         self.valued(hits, misses, f0, sigma_f0, sigma_f0, pattern)
     }
 
@@ -221,7 +279,9 @@ impl Sieve<'_> {
     /// Tolerance of a hit on line `l` at harmonic `n` of a fundamental `f0 ± sigma_f0`.
     fn tolerance(&self, l: &Line, n: f64, f0: f64, sigma_f0: f64) -> f64 {
         // a hit must name its harmonic without doubt: never wider than a tenth of f0
-        (self.params.tolerance_sigmas * l.sigma_hz.hypot(n * sigma_f0)).min(0.1 * f0)
+        // sqrt of the sum of squares: no overflow at frequencies in Hz, and far cheaper than hypot
+        let s = n * sigma_f0;
+        (self.params.tolerance_sigmas * (l.sigma_hz * l.sigma_hz + s * s).sqrt()).min(0.1 * f0)
     }
 
     /// The chance that lines at random give this many hits: each free line within the run's
@@ -322,6 +382,7 @@ impl Sieve<'_> {
         let mut runs: Vec<(usize, usize, usize, f64)> = Vec::new();
         let mut cur: Option<(usize, usize, usize, f64)> = None;
         let (mut k, mut gap) = (0usize, 0usize);
+        let mut occupied = self.occupied_cursor();
         let mut n = first.1;
         while n <= last.1 {
             if hits.get(k).is_some_and(|h| h.1 == n) {
@@ -332,7 +393,7 @@ impl Sieve<'_> {
                 });
                 k += 1;
                 gap = 0;
-            } else if !self.is_occupied(f64::from(n) * f0) {
+            } else if !occupied.covers(f64::from(n) * f0) {
                 gap += 1;
                 if gap > self.params.max_gap {
                     runs.extend(cur.take());
@@ -366,19 +427,23 @@ impl Sieve<'_> {
         numbers: impl Iterator<Item = u32>,
     ) -> (usize, usize) {
         let (mut seen, mut absent) = (0, 0);
+        let mut occupied = self.occupied_cursor();
         for n in numbers {
             if hits.binary_search_by_key(&n, |h| h.1).is_ok() {
                 seen += 1;
-            } else if !self.is_occupied(f64::from(n) * f0) {
+            } else if !occupied.covers(f64::from(n) * f0) {
                 absent += 1;
             }
         }
         (seen, absent)
     }
 
-    fn is_occupied(&self, freq_hz: f64) -> bool {
-        let k = self.occupied.partition_point(|iv| iv.0 <= freq_hz);
-        k > 0 && freq_hz <= self.occupied[k - 1].1
+    /// A walk over the occupied intervals for frequencies asked in ascending order.
+    fn occupied_cursor(&self) -> OccupiedCursor<'_> {
+        OccupiedCursor {
+            intervals: self.occupied,
+            next: 0,
+        }
     }
 
     /// A candidate scored and refined by weighted least squares, growing outwards: first on
@@ -451,12 +516,24 @@ impl Sieve<'_> {
     /// lowest harmonics that chance explains least.
     pub fn best(&self) -> Option<Candidate> {
         // a first, unrefined score of every candidate; only the most promising are refined
-        let mut rough: Vec<(f64, f64, Pattern, f64)> = Vec::new();
-        for (f0, s) in self.candidates() {
-            for pattern in [Pattern::All, Pattern::OddOnly] {
-                rough.push((f0, s, pattern, self.score(f0, s, pattern).excess));
-            }
-        }
+        let rough_of = |part: &[(f64, f64)]| -> Vec<(f64, f64, Pattern, f64)> {
+            part.iter()
+                .flat_map(|&(f0, s)| self.score_both(f0, s).map(|c| (f0, s, c.pattern, c.excess)))
+                .collect()
+        };
+        let candidates = self.candidates();
+        let mut rough = if candidates.len() >= PARALLEL_CANDIDATES {
+            // the two halves on two threads; the result is the same, in the same order
+            let (a, b) = candidates.split_at(candidates.len() / 2);
+            std::thread::scope(|scope| {
+                let second = scope.spawn(|| rough_of(b));
+                let mut rough = rough_of(a);
+                rough.extend(second.join().unwrap_or_else(|_| rough_of(b)));
+                rough
+            })
+        } else {
+            rough_of(&candidates)
+        };
         rough.sort_by(|a, b| b.3.total_cmp(&a.3));
         rough.truncate(self.params.refined);
         let mut best: Option<Candidate> = None;
@@ -747,6 +824,31 @@ mod tests {
             f *= 1.0 + 2e-5;
         }
         best.1
+    }
+
+    #[test]
+    fn the_occupied_cursor_agrees_with_a_search() {
+        let intervals = [(1.0, 2.0), (3.0, 3.0), (5.0, 8.0), (9.5, 10.0)];
+        let mut cursor = OccupiedCursor {
+            intervals: &intervals,
+            next: 0,
+        };
+        for k in 0..=230 {
+            let f = 0.05 * f64::from(k);
+            let inside = intervals.iter().any(|iv| iv.0 <= f && f <= iv.1);
+            assert_eq!(cursor.covers(f), inside, "at {f}");
+        }
+    }
+
+    #[test]
+    fn both_patterns_from_one_pass_score_as_each_alone() {
+        let l = lines(&[300e3, 500e3, 700e3, 900e3, 1000e3, 1100e3, 1300e3, 1400e3]);
+        let s = sieve(&l, &[]);
+        let [all, odd] = s.score_both(100e3, 50.0);
+        assert_eq!(all, s.score(100e3, 50.0, Pattern::All));
+        assert_eq!(odd, s.score(100e3, 50.0, Pattern::OddOnly));
+        assert!(odd.hits.iter().all(|h| h.1 % 2 == 1));
+        assert!(all.hits.iter().any(|h| h.1 % 2 == 0));
     }
 
     #[test]

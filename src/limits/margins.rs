@@ -48,7 +48,7 @@ impl Margins {
 
 /// Margins of `scan` to `limit`, point by point.
 pub fn margins(scan: &Scan, limit: &Limit) -> Margins {
-    let limit_dbuv: Vec<Option<f64>> = scan.freq_hz.iter().map(|&f| limit.at(f)).collect();
+    let limit_dbuv = limit.at_all(&scan.freq_hz);
     let margin_db: Vec<Option<f64>> = limit_dbuv
         .iter()
         .zip(scan.level_dbuv.iter())

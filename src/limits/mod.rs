@@ -43,6 +43,12 @@ impl Limit {
         interpolate::log_interp(&self.vertices, freq_hz)
     }
 
+    /// [`Limit::at`] at each frequency of a trace (one pass; see
+    /// [`interpolate::log_interp_all`]).
+    pub fn at_all<'a>(&self, freqs_hz: impl IntoIterator<Item = &'a f64>) -> Vec<Option<f64>> {
+        interpolate::log_interp_all(&self.vertices, freqs_hz)
+    }
+
     /// First and last frequency of the line in Hz.
     pub fn range_hz(&self) -> (f64, f64) {
         match (self.vertices.first(), self.vertices.last()) {

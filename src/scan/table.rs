@@ -29,15 +29,30 @@ impl Delimiter {
         }
     }
 
-    /// Cell `idx` of a line, cleaned; no allocation (the hot path of long scans).
-    fn nth_cell(self, line: &str, idx: usize) -> Option<&str> {
-        let cell = match self {
-            Delimiter::Comma => line.split(',').nth(idx),
-            Delimiter::Semicolon => line.split(';').nth(idx),
-            Delimiter::Tab => line.split('\t').nth(idx),
-            Delimiter::Whitespace => line.split_whitespace().nth(idx),
-        };
-        cell.map(clean_cell)
+    /// Cells `columns.0` and `columns.1` of a line, cleaned, in one pass over it and without
+    /// allocation (the hot path of long scans).
+    fn two_cells(self, line: &str, columns: (usize, usize)) -> (Option<&str>, Option<&str>) {
+        fn pick<'l>(
+            cells: impl Iterator<Item = &'l str>,
+            (a, b): (usize, usize),
+        ) -> (Option<&'l str>, Option<&'l str>) {
+            let mut out = (None, None);
+            for (k, cell) in cells.enumerate().take(a.max(b) + 1) {
+                if k == a {
+                    out.0 = Some(clean_cell(cell));
+                }
+                if k == b {
+                    out.1 = Some(clean_cell(cell));
+                }
+            }
+            out
+        }
+        match self {
+            Delimiter::Comma => pick(line.split(','), columns),
+            Delimiter::Semicolon => pick(line.split(';'), columns),
+            Delimiter::Tab => pick(line.split('\t'), columns),
+            Delimiter::Whitespace => pick(line.split_whitespace(), columns),
+        }
     }
 
     fn split(self, line: &str) -> Vec<&str> {
@@ -128,19 +143,42 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
     let decimal_comma = delimiter != Delimiter::Comma && data_uses_decimal_comma(&lines, delimiter);
     let need = columns.0.max(columns.1) + 1;
 
-    // The final run: walk back over blank, comment and data-like lines.
+    // The final run, read backwards: blank and comment lines are passed over, data-like lines
+    // are read; the first line that is neither ends the preamble. A bad cell in the run is
+    // reported at its earliest line, after a text line interrupting the rows (as the file reads).
     let mut start = lines.len();
+    let mut rows = Vec::new();
+    let mut bad: Option<ScanError> = None;
     for (i, line) in lines.iter().enumerate().rev() {
         let t = line.trim();
         if t.is_empty() || t.starts_with('#') {
             continue;
         }
-        if delimiter.nth_cell(t, columns.0).is_some_and(looks_numeric) {
-            start = i;
-        } else {
+        let (ca, cb) = delimiter.two_cells(t, columns);
+        if !ca.is_some_and(looks_numeric) {
             break;
         }
+        start = i;
+        let row = match (ca, cb) {
+            (Some(ca), Some(cb)) => {
+                number_in(ca, columns.0, i + 1, decimal_comma, file).and_then(|a| {
+                    let b = number_in(cb, columns.1, i + 1, decimal_comma, file)?;
+                    Ok(Row { line: i + 1, a, b })
+                })
+            }
+            _ => Err(ScanError::MissingColumn {
+                file: file.to_string(),
+                line: i + 1,
+                expected: need,
+                found: delimiter.split(t).len(),
+            }),
+        };
+        match row {
+            Ok(r) => rows.push(r),
+            Err(e) => bad = Some(e),
+        }
     }
+    rows.reverse();
     let preamble_end = start;
     check_interruption(
         &lines,
@@ -150,27 +188,8 @@ pub fn read_table(bytes: &[u8], file: &str, columns: (usize, usize)) -> Result<T
         decimal_comma,
         file,
     )?;
-
-    let mut rows = Vec::new();
-    for (i, line) in lines.iter().enumerate().skip(start) {
-        let t = line.trim();
-        if t.is_empty() || t.starts_with('#') {
-            continue;
-        }
-        let (Some(ca), Some(cb)) = (
-            delimiter.nth_cell(t, columns.0),
-            delimiter.nth_cell(t, columns.1),
-        ) else {
-            return Err(ScanError::MissingColumn {
-                file: file.to_string(),
-                line: i + 1,
-                expected: need,
-                found: delimiter.split(t).len(),
-            });
-        };
-        let a = number_in(ca, columns.0, i + 1, decimal_comma, file)?;
-        let b = number_in(cb, columns.1, i + 1, decimal_comma, file)?;
-        rows.push(Row { line: i + 1, a, b });
+    if let Some(e) = bad {
+        return Err(e);
     }
     if rows.is_empty() {
         return Err(ScanError::NoData {
@@ -443,6 +462,27 @@ mod tests {
     }
 
     #[test]
+    fn columns_in_either_order() {
+        let t = read_table(b"1,2,3\n4,5,6\n", "t.csv", (2, 0)).unwrap();
+        assert_eq!((t.rows[1].a, t.rows[1].b), (6.0, 4.0));
+        let t = read_table(b"1;2;3\n4;5;6\n", "t.csv", (1, 1)).unwrap();
+        assert_eq!((t.rows[0].a, t.rows[0].b), (2.0, 2.0));
+        let err = read_table(b"1,2\n4,5\n", "t.csv", (0, 2)).unwrap_err();
+        assert!(
+            matches!(
+                err,
+                ScanError::MissingColumn {
+                    line: 1,
+                    expected: 3,
+                    found: 2,
+                    ..
+                }
+            ),
+            "{err:?}"
+        );
+    }
+
+    #[test]
     fn plain_two_columns() {
         let t = read("1,2\n3,4\n").unwrap();
         assert_eq!(t.rows.len(), 2);
@@ -492,6 +532,12 @@ mod tests {
                     ..
                 }
             ),
+            "{err:?}"
+        );
+        // several bad cells: the earliest is reported, as the file reads
+        let err = read("1,2\n2,x\n3,4\n4,y\n5,6\n").unwrap_err();
+        assert!(
+            matches!(err, ScanError::BadNumber { line: 2, .. }),
             "{err:?}"
         );
         let err = read("1,2\n2,x\n5,6\n").unwrap_err();

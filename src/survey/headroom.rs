@@ -116,10 +116,7 @@ pub fn profile(freq_hz: &[f64], levels: &[Vec<f64>], tau: f64, limit: Option<&Li
         freq_hz: freq_hz.to_vec(),
         median_dbuv,
         p95_dbuv,
-        limit_dbuv: freq_hz
-            .iter()
-            .map(|&f| limit.and_then(|l| l.at(f)))
-            .collect(),
+        limit_dbuv: limit.map_or_else(|| vec![None; freq_hz.len()], |l| l.at_all(freq_hz)),
     }
 }
 
