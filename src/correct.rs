@@ -92,8 +92,7 @@ impl Transducer {
             .map(|r| (freq_unit.to_hz(r.a), r.b))
             .collect();
         let freqs: Vec<f64> = points.iter().map(|p| p.0).collect();
-        let lines: Vec<usize> = table.rows.iter().map(|r| r.line).collect();
-        crate::scan::csv::check_ascending(file, &freqs, &lines)?;
+        crate::scan::csv::check_ascending(file, &freqs, |i| table.rows[i].line)?;
         Ok(Transducer {
             name: file.to_string(),
             points,

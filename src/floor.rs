@@ -22,6 +22,7 @@
 
 use crate::scan::Scan;
 use serde::Serialize;
+use std::borrow::Cow;
 
 /// Settings of the floor estimate.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -104,12 +105,12 @@ pub fn max_rayleigh_quantile_db(q: f64, m: f64) -> f64 {
 
 /// Estimates the floor of `scan`.
 pub fn estimate_floor(scan: &Scan, params: &FloorParams) -> Floor {
-    let levels = scan
-        .level_dbuv
-        .as_slice()
-        .map(<[f64]>::to_vec)
-        .unwrap_or_else(|| scan.level_dbuv.to_vec());
-    let freqs = scan.freq_hz.to_vec();
+    // the trace's own memory when it is contiguous (it always is when read from a file)
+    fn view(a: &ndarray::Array1<f64>) -> Cow<'_, [f64]> {
+        a.as_slice()
+            .map_or_else(|| Cow::Owned(a.to_vec()), Cow::Borrowed)
+    }
+    let (levels, freqs) = (view(&scan.level_dbuv), view(&scan.freq_hz));
     let envelope = lower_envelope(&freqs, &levels, scan.meta.rbw_hz, params);
     let residuals: Vec<f64> = levels.iter().zip(&envelope).map(|(l, e)| l - e).collect();
     let (shift, m) = fit_noise(&residuals);
@@ -142,11 +143,30 @@ fn lower_envelope(
         return Vec::new();
     };
     let lf0 = f0.log10();
-    let bin_of = |f: f64| ((f.log10() - lf0) / BIN_DECADES) as usize;
-    let nbins = freqs.last().map_or(1, |&f| bin_of(f) + 1);
-    let mut members: Vec<Vec<f64>> = vec![Vec::new(); nbins];
-    for (&f, &l) in freqs.iter().zip(levels) {
-        members[bin_of(f).min(nbins - 1)].push(l);
+    let logf: Vec<f64> = freqs.iter().map(|f| f.log10()).collect();
+    let bin_of = |lf: f64| ((lf - lf0) / BIN_DECADES) as usize;
+    let nbins = logf.last().map_or(1, |&lf| bin_of(lf) + 1);
+    // the levels grouped by bin in one flat buffer (a counting sort: one count, one scatter)
+    let bin: Vec<usize> = logf.iter().map(|&lf| bin_of(lf).min(nbins - 1)).collect();
+    let mut starts = vec![0usize; nbins + 1];
+    for &b in &bin {
+        starts[b + 1] += 1;
+    }
+    for k in 0..nbins {
+        starts[k + 1] += starts[k];
+    }
+    let mut grouped = vec![0.0; levels.len()];
+    let mut next = starts.clone();
+    for (&b, &l) in bin.iter().zip(levels) {
+        grouped[next[b]] = l;
+        next[b] += 1;
+    }
+    let mut members: Vec<&mut [f64]> = Vec::with_capacity(nbins);
+    let mut rest = &mut grouped[..];
+    for k in 0..nbins {
+        let (this, tail) = rest.split_at_mut(starts[k + 1] - starts[k]);
+        members.push(this);
+        rest = tail;
     }
     // (bin centre in log10 f, bin value)
     let bins: Vec<(f64, f64)> = members
@@ -177,10 +197,8 @@ fn lower_envelope(
         .iter()
         .map(|&(x, y)| (x, y.min(eval_quadratic(baseline, x) + BASELINE_SLACK_DB)))
         .collect();
-    freqs
-        .iter()
-        .map(|&f| interp_sorted(&bounded, f.log10()))
-        .collect()
+    let mut at = InterpCursor::default();
+    logf.iter().map(|&lf| at.value(&bounded, lf)).collect()
 }
 
 /// A straight line in log10(f) under the local envelope: least squares, refitted on the quarter
@@ -262,9 +280,39 @@ fn eval_quadratic(c: [f64; 3], x: f64) -> f64 {
     c[0] + c[1] * x + c[2] * x * x
 }
 
-/// Linear interpolation in a sorted `(x, y)` table, constant beyond its ends.
-fn interp_sorted(table: &[(f64, f64)], x: f64) -> f64 {
-    let i = table.partition_point(|p| p.0 < x);
+/// Linear interpolation in a table sorted by abscissa (constant beyond its ends) at a run of
+/// abscissas: the vertex is found by a pointer that moves forward while they ascend (a binary
+/// search when one steps back).
+struct InterpCursor {
+    next: usize,
+    last: f64,
+}
+
+impl Default for InterpCursor {
+    fn default() -> Self {
+        InterpCursor {
+            next: 0,
+            last: f64::NEG_INFINITY,
+        }
+    }
+}
+
+impl InterpCursor {
+    fn value(&mut self, table: &[(f64, f64)], x: f64) -> f64 {
+        if x < self.last {
+            self.next = table.partition_point(|p| p.0 < x);
+        } else {
+            while table.get(self.next).is_some_and(|p| p.0 < x) {
+                self.next += 1;
+            }
+        }
+        self.last = x;
+        interp_at(table, self.next, x)
+    }
+}
+
+/// The value at `x` given `i`, the first vertex at or above it.
+fn interp_at(table: &[(f64, f64)], i: usize, x: f64) -> f64 {
     match (i.checked_sub(1).and_then(|j| table.get(j)), table.get(i)) {
         (Some(a), Some(b)) if b.0 > a.0 => a.1 + (b.1 - a.1) * (x - a.0) / (b.0 - a.0),
         (Some(a), _) => a.1,
@@ -289,14 +337,45 @@ pub(crate) fn quantile_in_place(v: &mut [f64], q: f64) -> f64 {
     a + (b - a) * (pos - lo as f64)
 }
 
+/// The quantiles `qs` of `v` as [`quantile_in_place`] gives them, with the same values, found
+/// from the largest down, each in the smallest values the one above left: a set of low
+/// quantiles of a long trace costs about one pass over it. Reorders `v`.
+pub(crate) fn lower_quantiles(v: &mut [f64], qs: &[f64]) -> Vec<f64> {
+    let n = v.len();
+    let mut order: Vec<usize> = (0..qs.len()).collect();
+    order.sort_by(|&a, &b| qs[b].total_cmp(&qs[a]));
+    let mut out = vec![f64::NAN; qs.len()];
+    if n == 0 {
+        return out;
+    }
+    // `v[..head]` holds the `head` smallest values
+    let mut head = n;
+    for k in order {
+        let pos = qs[k].clamp(0.0, 1.0) * (n - 1) as f64;
+        let lo = pos.floor() as usize;
+        let part = &mut v[..head];
+        part.select_nth_unstable_by(lo, f64::total_cmp);
+        // the next rank up (the least of the rest) moves next to it: the head then keeps the
+        // ranks 0 ..= lo + 1
+        if let Some(j) = (lo + 1..head).min_by(|&i, &j| part[i].total_cmp(&part[j])) {
+            part.swap(lo + 1, j);
+        }
+        let a = part[lo];
+        out[k] = if lo + 1 >= head || pos == lo as f64 {
+            a
+        } else {
+            a + (part[lo + 1] - a) * (pos - lo as f64)
+        };
+        head = head.min(lo + 2);
+    }
+    out
+}
+
 /// Fits `S` (shift) and `M` of the max-of-M Rayleigh law to the lower residual quantiles:
 /// least squares over [`FIT_QUANTILES`], `M` on a log grid, `S` in closed form (mean offset).
 fn fit_noise(residuals: &[f64]) -> (f64, f64) {
     let mut r = residuals.to_vec();
-    let observed: Vec<f64> = FIT_QUANTILES
-        .iter()
-        .map(|&q| quantile_in_place(&mut r, q))
-        .collect();
+    let observed = lower_quantiles(&mut r, &FIT_QUANTILES);
     let mut best = (f64::INFINITY, 0.0, M_MAX);
     let steps = 400;
     for k in 0..=steps {
@@ -325,6 +404,41 @@ mod tests {
     use crate::scan::ScanMeta;
     use rand::{Rng, SeedableRng};
     use rand_chacha::ChaCha8Rng;
+
+    #[test]
+    fn lower_quantiles_match_one_at_a_time() {
+        let mut rng = ChaCha8Rng::seed_from_u64(5);
+        for n in [1usize, 2, 3, 7, 40, 1001] {
+            let v: Vec<f64> = (0..n)
+                .map(|_| rng.random::<f64>().round() * 3.0 + rng.random::<f64>())
+                .collect();
+            let qs = [0.03, 0.25, 0.1, 0.5, 0.0, 1.0, 0.2, 0.2];
+            let mut w = v.clone();
+            let got = lower_quantiles(&mut w, &qs);
+            for (q, g) in qs.iter().zip(&got) {
+                assert_eq!(*g, quantile_in_place(&mut v.clone(), *q), "n {n}, q {q}");
+            }
+        }
+    }
+
+    #[test]
+    fn the_interpolation_cursor_agrees_with_a_search() {
+        let table = [(0.0, 1.0), (1.0, 3.0), (1.0, 5.0), (2.5, 2.0), (4.0, 2.0)];
+        let mut at = InterpCursor::default();
+        // ascending, then a step back, then beyond both ends
+        let xs: Vec<f64> = (0..=50)
+            .map(|k| -0.5 + 0.1 * f64::from(k))
+            .chain([0.7, 0.2, 9.0, -3.0])
+            .collect();
+        for x in xs {
+            let direct = interp_at(&table, table.partition_point(|p| p.0 < x), x);
+            assert_eq!(at.value(&table, x), direct, "at {x}");
+        }
+        // linear between vertices, constant beyond the ends (worked by hand)
+        assert_eq!(interp_at(&table, 3, 1.75), 3.5);
+        assert_eq!(interp_at(&table, 0, -1.0), 1.0);
+        assert_eq!(interp_at(&table, 5, 7.0), 2.0);
+    }
 
     /// Displayed noise: the maximum of m Rayleigh samples of parameter σ, in dBµV.
     fn noise_trace(n: usize, m: usize, sigma_dbuv: f64, seed: u64) -> Vec<f64> {

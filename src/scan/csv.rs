@@ -122,8 +122,9 @@ pub fn read_scan_bytes(
     let level_unit = resolve_level_unit(&table, file, opts, &mut notes)?;
     let meta = read_meta(&table, file, opts, level_unit, &mut notes)?;
 
-    let mut points: Vec<(usize, f64, f64)> = Vec::with_capacity(table.rows.len());
-    for row in &table.rows {
+    let stated = freq_unit_stated(&table, opts);
+    let mut rows = table.rows;
+    for row in &rows {
         let freq_hz = freq_unit.to_hz(row.a);
         if freq_hz <= 0.0 {
             return Err(ScanError::FrequencyNotPositive {
@@ -132,47 +133,44 @@ pub fn read_scan_bytes(
                 freq_hz,
             });
         }
-        points.push((row.line, freq_hz, level_unit.to_canonical(row.b)));
     }
-    if points.len() < 2 {
+    if rows.len() < 2 {
         return Err(ScanError::TooFewPoints {
             file: file.to_string(),
-            found: points.len(),
+            found: rows.len(),
         });
     }
     if opts.sort {
-        points.sort_by(|x, y| x.1.total_cmp(&y.1));
+        rows.sort_by(|x, y| freq_unit.to_hz(x.a).total_cmp(&freq_unit.to_hz(y.a)));
     }
-    let lines: Vec<usize> = points.iter().map(|p| p.0).collect();
-    let freq_hz: Vec<f64> = points.iter().map(|p| p.1).collect();
-    check_ascending(file, &freq_hz, &lines)?;
-    warn_on_unit_guess(&freq_hz, freq_unit_stated(&table, opts), &mut notes);
+    let freq_hz: Vec<f64> = rows.iter().map(|r| freq_unit.to_hz(r.a)).collect();
+    check_ascending(file, &freq_hz, |i| rows[i].line)?;
+    warn_on_unit_guess(&freq_hz, stated, &mut notes);
     notes.read.push(format!(
         "{} points, {} to {} Hz, from line {}",
-        points.len(),
+        rows.len(),
         freq_hz[0],
         freq_hz[freq_hz.len() - 1],
         notes.first_data_line
     ));
     let scan = Scan {
         freq_hz: Array1::from(freq_hz),
-        level_dbuv: points.iter().map(|p| p.2).collect(),
+        level_dbuv: rows.iter().map(|r| level_unit.to_canonical(r.b)).collect(),
         meta,
     };
     Ok(ReadOutcome { scan, notes })
 }
 
-/// Refuses frequencies that repeat or fall; `lines` gives the line of each point.
+/// Refuses frequencies that repeat or fall; `line_of(i)` gives the line of point `i`.
 pub(crate) fn check_ascending(
     file: &str,
     freq_hz: &[f64],
-    lines: &[usize],
+    line_of: impl Fn(usize) -> usize,
 ) -> Result<(), ScanError> {
     for i in 1..freq_hz.len() {
         let (prev, cur) = (freq_hz[i - 1], freq_hz[i]);
-        let line = lines.get(i).copied().unwrap_or(i + 1);
         if cur == prev {
-            let first_line = lines.get(i - 1).copied().unwrap_or(i);
+            let (line, first_line) = (line_of(i), line_of(i - 1));
             return Err(ScanError::DuplicateFrequency {
                 file: file.to_string(),
                 line,
@@ -183,7 +181,7 @@ pub(crate) fn check_ascending(
         if cur < prev {
             return Err(ScanError::NotAscending {
                 file: file.to_string(),
-                line,
+                line: line_of(i),
                 freq_hz: cur,
                 previous_hz: prev,
             });

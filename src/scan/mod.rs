@@ -70,7 +70,7 @@ impl Scan {
                 });
             }
         }
-        csv::check_ascending(&file, &freq_hz, &(1..=freq_hz.len()).collect::<Vec<_>>())?;
+        csv::check_ascending(&file, &freq_hz, |i| i + 1)?;
         Ok(Scan {
             freq_hz: Array1::from(freq_hz),
             level_dbuv: Array1::from(level_dbuv),
