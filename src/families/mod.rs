@@ -155,18 +155,28 @@ fn dithered_refit(
     refine::fit(&members).map(|f| (f.fundamental_hz, f.sigma_hz))
 }
 
-/// Frequency intervals where the trace is over its detection threshold.
+/// Frequency intervals where the trace is over its detection threshold, each point standing
+/// for its display bucket (half-way to its neighbours): on a grid coarser than the RBW a line
+/// anywhere in the bucket shows at the point, so a harmonic predicted there is not absent.
 fn occupied(scan: &Scan, floor: &Floor) -> Vec<(f64, f64)> {
+    let f = &scan.freq_hz;
+    let n = f.len();
     let mut out: Vec<(f64, f64)> = Vec::new();
-    let mut open = false;
-    for (i, (&f, &l)) in scan.freq_hz.iter().zip(scan.level_dbuv.iter()).enumerate() {
-        let over = floor.threshold_dbuv.get(i).is_some_and(|t| l > *t);
-        match (over, open, out.last_mut()) {
-            (true, true, Some(last)) => last.1 = f,
-            (true, _, _) => out.push((f, f)),
-            _ => {}
+    for (i, &l) in scan.level_dbuv.iter().enumerate() {
+        if !floor.threshold_dbuv.get(i).is_some_and(|t| l > *t) {
+            continue;
         }
-        open = over;
+        // the point stands for its display bucket: half-way to each neighbour
+        let lo = if i > 0 { 0.5 * (f[i - 1] + f[i]) } else { f[i] };
+        let hi = if i + 1 < n {
+            0.5 * (f[i] + f[i + 1])
+        } else {
+            f[i]
+        };
+        match out.last_mut() {
+            Some(last) if lo <= last.1 => last.1 = hi,
+            _ => out.push((lo, hi)),
+        }
     }
     out
 }
@@ -776,6 +786,48 @@ mod tests {
     /// their modulation, while their −6 dB edges stay centred on the channel (9 kHz RBW); and a
     /// fourth whose extent a neighbour's skirt widened on one side (its top is right, its middle
     /// 3 kHz off)
+    #[test]
+    fn an_over_threshold_point_occupies_its_display_bucket() {
+        // a coarse grid (1 MHz steps): points 2 and 5 are over the threshold; each stands for
+        // the bucket half-way to its neighbours, adjacent buckets join
+        let freqs = [1e6, 2e6, 3e6, 4e6, 5e6, 6e6, 7e6];
+        let levels = [10.0, 10.0, 30.0, 10.0, 30.0, 30.0, 10.0];
+        let scan = Scan::new(freqs.to_vec(), levels.to_vec(), Default::default()).unwrap();
+        let floor = Floor {
+            floor_dbuv: vec![5.0; freqs.len()],
+            threshold_dbuv: vec![20.0; freqs.len()],
+            samples_per_point: 1.0,
+            spread_db: 5.6,
+            false_alarm_per_point: 1e-4,
+        };
+        let occ = occupied(&scan, &floor);
+        assert_eq!(occ, vec![(2.5e6, 3.5e6), (4.5e6, 6.5e6)]);
+        // so a harmonic predicted up to half a step off an over-threshold point is not clearly
+        // absent: lines at harmonics 66 and 69 of 50 kHz (3.30 and 3.45 MHz), the 67th and 68th
+        // fall in point 3's bucket; with a line at the 90th (4.5 MHz) the 71st to 89th are absent
+        let l: Vec<Line> = [3.3e6, 3.45e6, 4.5e6]
+            .iter()
+            .map(|&f| Line {
+                freq_hz: f,
+                sigma_hz: 300.0,
+                weight: 1.0,
+                strength_db: 10.0,
+                width_hz: 10e3,
+            })
+            .collect();
+        let sieve = Sieve {
+            lines: &l,
+            free: vec![true; l.len()],
+            min_fundamental_hz: 1e3,
+            occupied: &occ,
+            params: SieveParams::default(),
+        };
+        let c = sieve.candidate_of(vec![(0, 66), (1, 69)], 50e3, 1.0, 1.0, Pattern::All);
+        assert_eq!(c.misses, 0);
+        let c = sieve.candidate_of(vec![(0, 66), (2, 90)], 50e3, 1.0, 1.0, Pattern::All);
+        assert_eq!(c.misses, 19);
+    }
+
     #[test]
     fn modulated_carriers_are_placed_by_top_and_edges() {
         let channels = [954e3, 1350e3, 1404e3];

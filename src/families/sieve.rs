@@ -25,6 +25,9 @@ pub struct Line {
 /// the candidate's weakest member: a crowd of weak lines cannot stand in for a few strong ones.
 pub const STRENGTH_SLACK_DB: f64 = 3.0;
 
+/// Free lines on each side of a seed whose spacings from it are candidate fundamentals.
+const NEIGHBOURS: usize = 2;
+
 /// Largest divisor k of a found fundamental whose f0/k is tried as the true fundamental
 /// ([`Sieve::best_sub_multiple`]), and largest multiple tried as one of a pair of combs
 /// ([`Sieve::split_common_divisor`]).
@@ -157,13 +160,29 @@ impl Sieve<'_> {
             }
         }
         seeds.sort_by(|&a, &b| self.lines[a].freq_hz.total_cmp(&self.lines[b].freq_hz));
+        let mut spacing = |a: usize, b: usize| {
+            let (la, lb) = (self.lines[a], self.lines[b]);
+            let d = (lb.freq_hz - la.freq_hz).abs();
+            if d >= self.min_fundamental_hz {
+                out.push((d, la.sigma_hz.hypot(lb.sigma_hz)));
+            }
+        };
         for (k, &a) in seeds.iter().enumerate() {
             for &b in seeds.iter().skip(k + 1).take(3) {
-                let (la, lb) = (self.lines[a], self.lines[b]);
-                let d = lb.freq_hz - la.freq_hz;
-                if d >= self.min_fundamental_hz {
-                    out.push((d, la.sigma_hz.hypot(lb.sigma_hz)));
-                }
+                spacing(a, b);
+            }
+        }
+        // each seed and its nearest free neighbours on either side, strong or not: adjacent
+        // harmonics of a comb seen only far above its fundamental (n > max_divisor) are spaced
+        // by the fundamental itself
+        let free: Vec<usize> = (0..self.lines.len()).filter(|&i| self.free[i]).collect();
+        for &a in &seeds {
+            let f = self.lines[a].freq_hz;
+            let at = free.partition_point(|&i| self.lines[i].freq_hz < f);
+            let below = free[..at].iter().rev().take(NEIGHBOURS);
+            let above = free[at..].iter().filter(|&&i| i != a).take(NEIGHBOURS);
+            for &b in below.chain(above) {
+                spacing(a, b);
             }
         }
         out.sort_by(|a, b| a.0.total_cmp(&b.0));
@@ -864,6 +883,36 @@ mod tests {
         );
         assert_eq!(c.hits.first().map(|h| h.1), Some(3));
         assert_eq!(c.misses, 0);
+    }
+
+    #[test]
+    fn a_comb_seen_only_far_above_its_fundamental_is_found_from_line_spacings() {
+        // a 50 kHz converter seen from its 200th to its 260th harmonic (10 to 13 MHz, a zoomed
+        // span): every 7th line stands out, so the strong lines are 350 kHz apart and no seed
+        // over a divisor up to 40 comes near 50 kHz; only the spacing of a strong line to its
+        // weaker neighbours names the fundamental
+        let f0 = 50_003.0;
+        let l: Vec<Line> = (200..=260)
+            .map(|n| {
+                let strong = n % 7 == 0;
+                Line {
+                    freq_hz: f0 * f64::from(n),
+                    sigma_hz: 300.0,
+                    weight: if strong { 2.0 } else { 1.3 },
+                    strength_db: if strong { 20.0 } else { 6.0 },
+                    width_hz: 10e3,
+                }
+            })
+            .collect();
+        let mut s = sieve(&l, &[]);
+        s.params.seeds = 8;
+        let c = s.best().unwrap();
+        assert!(
+            (c.fundamental_hz / f0 - 1.0).abs() < 1e-4,
+            "{}",
+            c.fundamental_hz
+        );
+        assert!(c.hits.len() >= 55, "{} hits", c.hits.len());
     }
 
     #[test]
