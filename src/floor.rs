@@ -75,6 +75,8 @@ const WINDOW_QUANTILE: f64 = 0.3;
 const FIT_QUANTILES: [f64; 6] = [0.03, 0.06, 0.1, 0.15, 0.2, 0.25];
 /// Share of the envelope the smooth baseline is fitted to: the lowest quarter.
 const BASELINE_QUANTILE: f64 = 0.25;
+/// Fewest points outside held-down bins the noise law is fitted to (fewer: all points).
+const MIN_NOISE_POINTS: usize = 50;
 /// The local envelope may rise this far above the smooth baseline before it is taken for
 /// signal (a scan whose every bucket holds a line has no visible floor there), dB.
 const BASELINE_SLACK_DB: f64 = 3.0;
@@ -111,8 +113,19 @@ pub fn estimate_floor(scan: &Scan, params: &FloorParams) -> Floor {
             .map_or_else(|| Cow::Owned(a.to_vec()), Cow::Borrowed)
     }
     let (levels, freqs) = (view(&scan.level_dbuv), view(&scan.freq_hz));
-    let envelope = lower_envelope(&freqs, &levels, scan.meta.rbw_hz, params);
-    let residuals: Vec<f64> = levels.iter().zip(&envelope).map(|(l, e)| l - e).collect();
+    let (envelope, signal) = lower_envelope(&freqs, &levels, scan.meta.rbw_hz, params);
+    // the noise law is fitted where the envelope shows a floor; where the baseline held it down
+    // (signal fills every bucket there) the residuals are signal, not noise: they take part
+    // only when too few points remain elsewhere
+    let noise_like = signal.iter().filter(|&&s| !s).count();
+    let use_all = noise_like < MIN_NOISE_POINTS.min(levels.len());
+    let residuals: Vec<f64> = levels
+        .iter()
+        .zip(&envelope)
+        .zip(&signal)
+        .filter(|&(_, &s)| use_all || !s)
+        .map(|((l, e), _)| l - e)
+        .collect();
     let (shift, m) = fit_noise(&residuals);
     let n = levels.len().max(1) as f64;
     let p = (params.false_alarms / n).clamp(1e-12, 0.5);
@@ -132,15 +145,17 @@ pub fn estimate_floor(scan: &Scan, params: &FloorParams) -> Floor {
 }
 
 /// A robust lower envelope: the 25 % quantile of each 0.005-decade bin, then the 30 %
-/// quantile of the bins within the window, interpolated back to the points linearly in log f.
+/// quantile of the bins within the window, held down to the smooth baseline plus
+/// [`BASELINE_SLACK_DB`], interpolated back to the points linearly in log f. Also returns, per
+/// point, whether its bin was held down (signal fills the buckets there).
 fn lower_envelope(
     freqs: &[f64],
     levels: &[f64],
     rbw_hz: Option<f64>,
     params: &FloorParams,
-) -> Vec<f64> {
+) -> (Vec<f64>, Vec<bool>) {
     let Some(&f0) = freqs.first() else {
-        return Vec::new();
+        return (Vec::new(), Vec::new());
     };
     let lf0 = f0.log10();
     let logf: Vec<f64> = freqs.iter().map(|f| f.log10()).collect();
@@ -197,8 +212,17 @@ fn lower_envelope(
         .iter()
         .map(|&(x, y)| (x, y.min(eval_quadratic(baseline, x) + BASELINE_SLACK_DB)))
         .collect();
+    // held down, per bin index (empty bins are not held)
+    let mut held = vec![false; nbins];
+    for (&(x, y), &(_, b)) in smoothed.iter().zip(&bounded) {
+        if b < y {
+            let k = (((x - lf0) / BIN_DECADES) as usize).min(nbins - 1);
+            held[k] = true;
+        }
+    }
     let mut at = InterpCursor::default();
-    logf.iter().map(|&lf| at.value(&bounded, lf)).collect()
+    let envelope = logf.iter().map(|&lf| at.value(&bounded, lf)).collect();
+    (envelope, bin.iter().map(|&b| held[b]).collect())
 }
 
 /// A straight line in log10(f) under the local envelope: least squares, refitted on the quarter
@@ -592,6 +616,36 @@ mod tests {
             (fl.floor_dbuv[2_800] - want).abs() < 2.5,
             "{}",
             fl.floor_dbuv[2_800]
+        );
+    }
+
+    #[test]
+    fn a_continuum_over_most_points_does_not_lift_the_noise_floor() {
+        // linear 150 kHz-30 MHz, 6000 points: above 3 MHz (90 % of the points, a third of
+        // the bins in log f) the overlapping plateaus of a dithered converter, noise-like at
+        // 40 dB over the noise; below, noise alone. The noise law must come from the noise:
+        // fitted on all residuals, the continuum's took the lower quantiles and lifted the
+        // floor by about 20 dB
+        let mut t = noise_trace(6_000, 2, 0.0, 21);
+        let s = scan(t.clone());
+        let continuum = noise_trace(6_000, 1, 40.0, 22);
+        for (i, v) in t.iter_mut().enumerate() {
+            if s.freq_hz[i] > 3e6 {
+                *v = continuum[i];
+            }
+        }
+        let f = estimate_floor(&scan(t), &FloorParams::default());
+        let want = max_rayleigh_quantile_db(0.5, 2.0);
+        let i = s.freq_hz.iter().position(|&x| x > 1e6).unwrap();
+        assert!(
+            (f.floor_dbuv[i] - want).abs() < 1.5,
+            "floor at 1 MHz {} vs {want}",
+            f.floor_dbuv[i]
+        );
+        assert!(
+            (f.samples_per_point / 2.0 - 1.0).abs() < 0.35,
+            "{}",
+            f.samples_per_point
         );
     }
 
