@@ -265,7 +265,9 @@ pub fn find_families(
         for &(i, _) in &c.hits {
             sieve.free[i] = false;
         }
-        if !absorb(&mut found, &c, &lines, peaks) && !near_duplicate(&found, &c, &lines) {
+        if !absorb(&mut found, &c, &lines, peaks)
+            && !near_duplicate(&found, &c, &lines, &occupied, 1.5 * median_line)
+        {
             found.push(c);
         }
     }
@@ -465,10 +467,16 @@ const DUPLICATE_SHARE: f64 = 0.03;
 /// Whether `c` is a fragment of an earlier family: its fundamental lies within
 /// [`DUPLICATE_SHARE`] of that family's and most of its lines lie inside that family's emissions
 /// (within half of their −6 dB extent, which for a dithered harmonic grows with its number, plus
-/// three uncertainties), or its harmonic numbers overlap less than half of their own range with
+/// three uncertainties, or in one stretch over the threshold with them), or its harmonic numbers overlap less than half of their own range with
 /// the family's (the fragments of one comb are short runs side by side). Two converters a few
 /// per cent apart, each with narrow lines over the same harmonic numbers, are two families. A fragment's lines stay claimed, so they do not come back as another fragment.
-fn near_duplicate(found: &[Candidate], c: &Candidate, lines: &[Line]) -> bool {
+fn near_duplicate(
+    found: &[Candidate],
+    c: &Candidate,
+    lines: &[Line],
+    occupied: &[(f64, f64)],
+    bridge_hz: f64,
+) -> bool {
     found.iter().any(|f| {
         let ratio = c.fundamental_hz / f.fundamental_hz;
         if (ratio - 1.0).abs() >= DUPLICATE_SHARE {
@@ -490,6 +498,7 @@ fn near_duplicate(found: &[Candidate], c: &Candidate, lines: &[Line]) -> bool {
                 let half = 0.5 * (m * per_n).max(l.width_hz);
                 let tol = 3.0 * l.sigma_hz.hypot(m * f.sigma_hz);
                 (l.freq_hz - m * f.fundamental_hz).abs() <= half + tol
+                    || one_emission(occupied, l.freq_hz, m * f.fundamental_hz, bridge_hz)
             })
             .count();
         // two oscillators a few per cent apart both show over the same harmonic numbers; the
@@ -500,6 +509,26 @@ fn near_duplicate(found: &[Candidate], c: &Candidate, lines: &[Line]) -> bool {
         let side_by_side = 2 * overlap < a.1 - a.0;
         2 * inside >= c.hits.len() || side_by_side
     })
+}
+
+/// Whether frequencies `a` and `b` lie in one stretch over the threshold, across dips narrower
+/// than `bridge_hz`: one emission. A dithered harmonic's plateau shows over the threshold from
+/// edge to edge but for notches a line width or so wide; two narrow lines apart show the floor
+/// between them.
+fn one_emission(occupied: &[(f64, f64)], a: f64, b: f64, bridge_hz: f64) -> bool {
+    let (lo, hi) = if a <= b { (a, b) } else { (b, a) };
+    let k = occupied.partition_point(|iv| iv.1 < lo);
+    let Some(first) = occupied.get(k).filter(|iv| iv.0 <= lo) else {
+        return false;
+    };
+    let mut end = first.1;
+    for iv in &occupied[k + 1..] {
+        if end >= hi || iv.0 - end > bridge_hz {
+            break;
+        }
+        end = iv.1;
+    }
+    end >= hi
 }
 
 /// Share of a new candidate's lines that must sit on an earlier family's harmonics for them to
@@ -878,14 +907,42 @@ mod tests {
 
     /// Two converters 2.9 % apart (404.6 and 416.5 kHz), each with narrow lines over the same
     /// harmonic numbers, are two families; a near-equal fundamental whose lines lie inside a
-    /// dithered family's wide emissions, or a short run beside the family's own, is a fragment.
+    /// dithered family's wide emissions (by their widths or by the trace over the threshold),
+    /// or a short run beside the family's own, is a fragment.
     #[test]
     fn close_converters_are_not_fragments() {
         let mut lines = comb(404_643.5, 2..=40, 10e3);
         lines.extend(comb(416_492.9, 2..=40, 10e3));
         let found = [candidate(404_643.5, 0, 2..=40)];
         let other = candidate(416_492.9, 39, 2..=40);
-        assert!(!near_duplicate(&found, &other, &lines));
+        assert!(!near_duplicate(&found, &other, &lines, &[], 0.0));
+        // each line over the threshold on its own: the floor shows between them
+        let mut apart: Vec<(f64, f64)> = lines
+            .iter()
+            .map(|l| (l.freq_hz - 5e3, l.freq_hz + 5e3))
+            .collect();
+        apart.sort_by(|a, b| a.0.total_cmp(&b.0));
+        assert!(!near_duplicate(&found, &other, &lines, &apart, 15e3));
+
+        // a dithered 200 kHz family, 2 % spread, whose plateaus showed as narrow tops: harmonic
+        // n is over the threshold over ±2·n kHz but for a 2 kHz notch; a comb through other
+        // tops, 0.75 % high, lies on the plateaus (not within the tops' own widths)
+        let mut lines = comb(200e3, 2..=20, 10e3);
+        lines.extend(comb(201.5e3, 2..=20, 10e3));
+        let plateaus: Vec<(f64, f64)> = (2..=20)
+            .flat_map(|n| {
+                let (c, h) = (200e3 * f64::from(n), 2e3 * f64::from(n));
+                [(c - h, c + 0.3 * h), (c + 0.3 * h + 2e3, c + h)]
+            })
+            .collect();
+        let found = [candidate(200e3, 0, 2..=20)];
+        let tops = candidate(201.5e3, 19, 2..=20);
+        assert!(!near_duplicate(&found, &tops, &lines, &[], 15e3));
+        assert!(near_duplicate(&found, &tops, &lines, &plateaus, 15e3));
+        assert!(
+            !near_duplicate(&found, &tops, &lines, &plateaus, 1e3),
+            "notch not bridged"
+        );
 
         // a dithered 200 kHz family, 4 % spread: harmonic n is 8·n kHz wide
         let mut lines: Vec<Line> = (2..=20)
@@ -898,7 +955,7 @@ mod tests {
         lines.extend(comb(202e3, 2..=20, 10e3));
         let found = [candidate(200e3, 0, 2..=20)];
         let fragment = candidate(202e3, 19, 2..=20);
-        assert!(near_duplicate(&found, &fragment, &lines));
+        assert!(near_duplicate(&found, &fragment, &lines, &[], 0.0));
 
         // a short run of near-equal spacing far above the family's own harmonics
         let mut lines = comb(404_643.5, 2..=40, 10e3);
@@ -907,7 +964,9 @@ mod tests {
         assert!(near_duplicate(
             &[candidate(404_643.5, 0, 2..=40)],
             &run,
-            &lines
+            &lines,
+            &[],
+            0.0
         ));
     }
 
