@@ -203,6 +203,7 @@ fn offered_lines(
         .collect();
     let mut free = vec![true; peaks.len()];
     let mut widths: Vec<f64> = peaks.iter().map(|p| p.width_hz).collect();
+    join_notched_plateaus(scan, peaks, &mut lines, &mut free, &mut widths);
     for h in humps {
         let inside: Vec<usize> = (0..peaks.len())
             .filter(|&i| peaks[i].freq_hz >= h.start_hz && peaks[i].freq_hz <= h.stop_hz)
@@ -226,6 +227,62 @@ fn offered_lines(
     }
     (lines, free, widths)
 }
+
+/// Broad emissions (wider than [`BROAD_LINES`] line widths) whose −6 dB extents lie less than
+/// [`NOTCH_LINES`] line widths apart are one plateau split by a notch (a dithered harmonic's
+/// spectrum has deep, narrow notches): the sieve sees one line for them, the highest peak,
+/// placed at the middle of their joint extent with the uncertainty of a plateau of that width
+/// ([`peak_sigma_hz`] of the joint extent); the others are not offered. Narrow lines are never
+/// joined, so two close sources stay two lines.
+fn join_notched_plateaus(
+    scan: &Scan,
+    peaks: &[FoundPeak],
+    lines: &mut [Line],
+    free: &mut [bool],
+    widths: &mut [f64],
+) {
+    let line_of = |p: &FoundPeak| line_width_hz(scan, peaks, p.index);
+    let broad = |p: &FoundPeak| p.width_hz > BROAD_LINES * line_of(p);
+    let mut i = 0;
+    while i < peaks.len() {
+        if !broad(&peaks[i]) {
+            i += 1;
+            continue;
+        }
+        // the run of broad peaks, each within a notch of the previous extent
+        let (mut j, mut right) = (i, peaks[i].right_hz);
+        while let Some(q) = peaks.get(j + 1) {
+            if !broad(q) || q.left_hz - right > NOTCH_LINES * line_of(q) {
+                break;
+            }
+            right = right.max(q.right_hz);
+            j += 1;
+        }
+        if j > i {
+            let top = (i..=j)
+                .max_by(|&a, &b| peaks[a].level_dbuv.total_cmp(&peaks[b].level_dbuv))
+                .unwrap_or(i);
+            let joint = FoundPeak {
+                left_hz: peaks[i].left_hz,
+                right_hz: right,
+                width_hz: right - peaks[i].left_hz,
+                ..peaks[top].clone()
+            };
+            free[i..=j].fill(false);
+            free[top] = true;
+            lines[top].freq_hz = 0.5 * (joint.left_hz + joint.right_hz);
+            lines[top].sigma_hz = peak_sigma_hz(scan, peaks, &joint);
+            lines[top].width_hz = joint.width_hz;
+            widths[top] = joint.width_hz;
+        }
+        i = j + 1;
+    }
+}
+
+/// Width, in line widths, over which an emission is broad enough to be part of a plateau.
+const BROAD_LINES: f64 = 2.0;
+/// Widest notch, in line widths, that a plateau is joined across.
+const NOTCH_LINES: f64 = 1.5;
 
 /// Finds the families among `peaks` and `humps`.
 pub fn find_families(
@@ -815,6 +872,53 @@ mod tests {
     /// their modulation, while their −6 dB edges stay centred on the channel (9 kHz RBW); and a
     /// fourth whose extent a neighbour's skirt widened on one side (its top is right, its middle
     /// 3 kHz off)
+    /// A plateau split by a 12 kHz notch (9 kHz RBW, 1 kHz steps: a line is 10 kHz wide) is
+    /// one line for the sieve, at the middle of the joint extent; two narrow lines 15 kHz apart
+    /// stay two, and so does a plateau piece beyond a wider gap.
+    #[test]
+    fn a_notched_plateau_is_one_line_and_close_narrow_lines_are_two() {
+        let f: Vec<f64> = (0..=400).map(|k| 0.9e6 + 1e3 * f64::from(k)).collect();
+        let scan = Scan::new(
+            f,
+            vec![0.0; 401],
+            crate::scan::ScanMeta {
+                rbw_hz: Some(9e3),
+                ..Default::default()
+            },
+        )
+        .unwrap();
+        let piece = |left: f64, right: f64, top: f64, level: f64| FoundPeak {
+            index: ((top - 0.9e6) / 1e3).round() as usize,
+            left_hz: left,
+            right_hz: right,
+            width_hz: right - left,
+            ..peak(top, level)
+        };
+        let peaks = [
+            piece(1.000e6, 1.030e6, 1.010e6, 60.0),
+            piece(1.042e6, 1.080e6, 1.070e6, 62.0),
+            piece(1.120e6, 1.150e6, 1.130e6, 61.0), // 40 kHz beyond: another emission
+            piece(1.195e6, 1.205e6, 1.200e6, 50.0),
+            piece(1.210e6, 1.220e6, 1.215e6, 50.0),
+        ];
+        let (lines, free, widths) = offered_lines(&scan, &peaks, &[]);
+        assert_eq!(free, vec![false, true, true, true, true]);
+        assert!(
+            (lines[1].freq_hz - 1.040e6).abs() < 1.0,
+            "{}",
+            lines[1].freq_hz
+        );
+        assert!((widths[1] - 80e3).abs() < 1.0);
+        // the uncertainty of an 80 kHz plateau: about a tenth of its excess width
+        assert!(
+            lines[1].sigma_hz > 6e3 && lines[1].sigma_hz < 9e3,
+            "{}",
+            lines[1].sigma_hz
+        );
+        assert_eq!(lines[2].freq_hz, 1.135e6);
+        assert_eq!((lines[3].freq_hz, lines[4].freq_hz), (1.2e6, 1.215e6));
+    }
+
     #[test]
     fn an_over_threshold_point_occupies_its_display_bucket() {
         // a coarse grid (1 MHz steps): points 2 and 5 are over the threshold; each stands for
