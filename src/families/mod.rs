@@ -525,9 +525,11 @@ const DUPLICATE_SHARE: f64 = 0.03;
 /// Whether `c` is a fragment of an earlier family: its fundamental lies within
 /// [`DUPLICATE_SHARE`] of that family's and most of its lines lie inside that family's emissions
 /// (within half of their −6 dB extent, which for a dithered harmonic grows with its number, plus
-/// three uncertainties, or in one stretch over the threshold with them), or its harmonic numbers overlap less than half of their own range with
-/// the family's (the fragments of one comb are short runs side by side). Two converters a few
-/// per cent apart, each with narrow lines over the same harmonic numbers, are two families. A fragment's lines stay claimed, so they do not come back as another fragment.
+/// three uncertainties, or in one stretch over the threshold with them, see [`one_emission`]),
+/// or its harmonic numbers overlap less than half of their own range with the family's (the
+/// fragments of one comb are short runs side by side). Two converters a few per cent apart,
+/// each with narrow lines over the same harmonic numbers, are two families. A fragment's lines
+/// stay claimed, so they do not come back as another fragment.
 fn near_duplicate(
     found: &[Candidate],
     c: &Candidate,
