@@ -67,8 +67,14 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             };
             *causes.entry(cause).or_default() += 1;
             println!(
-                "seed {seed} {:?} {:<34} lines {k} over {over} peaks {peaked} claimed {claimed} -> {cause}",
-                case.scenario, t.label
+                "seed {seed} {:?} {:<34} lines {k} over {over} peaks {peaked} claimed {claimed} -> {cause}{}",
+                case.scenario,
+                t.label,
+                if t.spread_pct > 0.0 {
+                    format!(" (dithered {:.1} %)", t.spread_pct)
+                } else {
+                    String::new()
+                }
             );
         }
     }

@@ -1385,8 +1385,9 @@ fn visible_lines(p: &Periodic, is_clock: bool, scene: &Scene) -> Vec<TruthLine> 
 }
 
 /// Whether another source's resolved line within half the resolution distance of `freq_hz`
-/// (max(RBW, display step)) reads stronger than `level_dbuv`: the two show as one peak, at the
-/// stronger one, so the weaker is not a line of its own. `own_f0` / `own_carrier` name the line's
+/// (max(RBW, display step)), or a dithered harmonic whose plateau reaches that close, reads
+/// stronger than `level_dbuv`: the two show as one peak, at the stronger one, so the weaker is
+/// not a line of its own. `own_f0` / `own_carrier` name the line's
 /// own source, which is skipped.
 fn stronger_line_near(
     scene: &Scene,
@@ -1407,7 +1408,11 @@ fn stronger_line_near(
             continue;
         }
         let k = (freq_hz / q.f0_hz).round().max(1.0) as u32;
-        if (f64::from(k) * q.f0_hz - freq_hz).abs() >= near || overlapping_harmonics(q, k) > 1.0 {
+        // a dithered harmonic covers its whole plateau, k·f0·spread wide
+        let half_plateau = 0.5 * f64::from(k) * q.f0_hz * q.spread_pct / 100.0;
+        if (f64::from(k) * q.f0_hz - freq_hz).abs() >= near + half_plateau
+            || overlapping_harmonics(q, k) > 1.0
+        {
             continue;
         }
         let duty = q.duty.unwrap_or(if is_clock { 0.5 } else { 0.0 });
@@ -2019,6 +2024,11 @@ mod tests {
             Some(783_756.0),
             None
         ));
+        // dithered by 6 %, the converter's fundamental spreads over 47 kHz (METHODS §9): a
+        // 50 dBµV line 20 kHz off its centre sits on the plateau, one 40 kHz off stands beside it
+        sc.switching[0].spread_pct = 6.0;
+        assert!(stronger_line_near(&sc, 803.8e3, 50.0, None, None));
+        assert!(!stronger_line_near(&sc, 823.8e3, 50.0, None, None));
     }
 
     #[test]
