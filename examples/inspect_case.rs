@@ -95,11 +95,36 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         );
     }
     println!("peaks {} humps {}", a.peaks.len(), a.humps.len());
+    // PEAKS=lo:hi (Hz) lists the peaks in that range with their family and harmonic number
+    if let Some((lo, hi)) = range_var("PEAKS") {
+        for p in a.peaks.iter().filter(|p| (lo..=hi).contains(&p.freq_hz)) {
+            println!(
+                "   peak {:>14.0} {:>7.1} dBuV margin {:>6} family {:?} n {:?}",
+                p.freq_hz,
+                p.level_dbuv,
+                p.limit_dbuv
+                    .map_or("-".to_string(), |l| format!("{:.1}", l - p.level_dbuv)),
+                p.family,
+                p.harmonic
+            );
+        }
+    }
+    if std::env::var("HUMPS").is_ok() {
+        for h in &a.humps {
+            println!(
+                "   hump {:>12.0}..{:<12.0} top {:>12.0} {:>6.1} dBuV over floor {:>5.1} family {:?} {:?}",
+                h.start_hz,
+                h.stop_hz,
+                h.freq_hz,
+                h.level_dbuv,
+                h.over_floor_db,
+                h.family,
+                h.seen_as
+            );
+        }
+    }
     // DUMP=lo:hi (Hz) prints the trace, floor and threshold of the points in that range
-    if let Some((lo, hi)) = std::env::var("DUMP").ok().and_then(|d| {
-        let (lo, hi) = d.split_once(':')?;
-        Some((lo.parse::<f64>().ok()?, hi.parse::<f64>().ok()?))
-    }) {
+    if let Some((lo, hi)) = range_var("DUMP") {
         for (i, &f) in a.scan.freq_hz.iter().enumerate() {
             if (lo..=hi).contains(&f) {
                 println!(
@@ -137,4 +162,11 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         );
     }
     Ok(())
+}
+
+/// A frequency range `lo:hi` (Hz) from the environment variable `name`.
+fn range_var(name: &str) -> Option<(f64, f64)> {
+    let v = std::env::var(name).ok()?;
+    let (lo, hi) = v.split_once(':')?;
+    Some((lo.parse().ok()?, hi.parse().ok()?))
 }
