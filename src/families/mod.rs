@@ -11,7 +11,7 @@ pub mod raster;
 pub mod refine;
 pub mod sieve;
 
-use crate::bandwidth::{Hump, line_width_hz, local_step};
+use crate::bandwidth::{FINE_GRID_SHARE, Hump, RIPPLE_LINES, line_width_hz, local_step};
 use crate::floor::Floor;
 use crate::peaks::FoundPeak;
 use crate::scan::Scan;
@@ -285,16 +285,7 @@ fn join_notched_plateaus(
 
 /// Width, in line widths, over which an emission is broad enough to be part of a plateau.
 const BROAD_LINES: f64 = 2.0;
-/// Width, in line widths, under which a peak on a fine grid is a ripple on something broader:
-/// a steady carrier shows with the RBW filter's own −6 dB width (common practice: the displayed
-/// shape of a CW signal is the filter's), so a top much narrower than that is a fluctuation of
-/// a noise-like emission (a dithered harmonic's plateau read with the peak detector), part of a
-/// plateau (measured on seeds 1-600, recall / precision / top-1: 0.5 gives 0.713 / 0.873 /
-/// 0.700, 0.6 0.713 / 0.877 / 0.700, 0.7 0.714 / 0.881 / 0.702, 0.85 0.705 / 0.886 / 0.693).
-const RIPPLE_LINES: f64 = 0.7;
-/// A grid is fine enough for a peak's width to be measured when its step is under this share
-/// of a line width (three or more points per line).
-const FINE_GRID_SHARE: f64 = 1.0 / 3.0;
+
 /// Widest notch, in line widths, that a plateau is joined across (measured on seeds 1-600
 /// against 1.5: precision 0.864 -> 0.870, recall 0.706 -> 0.706, top-1 unchanged).
 const NOTCH_LINES: f64 = 3.0;
