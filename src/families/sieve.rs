@@ -457,6 +457,30 @@ impl Sieve<'_> {
         (seen, absent)
     }
 
+    /// The harmonic numbers from a candidate's first to its last hit, each with whether it is
+    /// hit (`Some(true)`), clearly absent (`Some(false)`: nothing over the threshold there) or
+    /// covered by something else (`None`).
+    pub fn slot_states(&self, c: &Candidate) -> Vec<(u32, Option<bool>)> {
+        let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
+            return Vec::new();
+        };
+        let step = if c.pattern == Pattern::OddOnly { 2 } else { 1 };
+        let mut occupied = self.occupied_cursor();
+        (first.1..=last.1)
+            .step_by(step)
+            .map(|n| {
+                let state = if c.hits.binary_search_by_key(&n, |h| h.1).is_ok() {
+                    Some(true)
+                } else if !occupied.covers(f64::from(n) * c.fundamental_hz) {
+                    Some(false)
+                } else {
+                    None
+                };
+                (n, state)
+            })
+            .collect()
+    }
+
     /// A walk over the occupied intervals for frequencies asked in ascending order.
     fn occupied_cursor(&self) -> OccupiedCursor<'_> {
         OccupiedCursor {
