@@ -525,7 +525,7 @@ fn is_family(c: &Candidate, sieve: &Sieve, params: &FamilyParams) -> bool {
     }
     c.pattern == Pattern::All
         && duty_nulls(&sieve.slot_states(c)).is_some_and(|(_, excused)| {
-            seen as f64 >= params.min_hit_ratio * (seen + c.misses - excused) as f64
+            seen as f64 >= params.min_hit_ratio * (seen + c.misses.saturating_sub(excused)) as f64
         })
 }
 
