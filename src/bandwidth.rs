@@ -155,6 +155,13 @@ pub const RIPPLE_LINES: f64 = 0.7;
 /// of a line width (three or more points per line).
 pub const FINE_GRID_SHARE: f64 = 1.0 / 3.0;
 
+/// Whether peak `p` is a ripple on something broader: narrower than [`RIPPLE_LINES`] line
+/// widths on a grid fine enough ([`FINE_GRID_SHARE`]) for its width to be measured.
+pub fn is_ripple(scan: &Scan, peaks: &[FoundPeak], p: &FoundPeak) -> bool {
+    let line = line_width_hz(scan, peaks, p.index);
+    local_step(scan, p.index) < FINE_GRID_SHARE * line && p.width_hz < RIPPLE_LINES * line
+}
+
 /// Share of the points within ±[`HUMP_WINDOW_WIDTHS`] line widths that must be over the
 /// detection threshold for a point to be part of a hump: a lone line fills about a third of that
 /// window, two lines a channel apart about 60 %, a broadband plateau all of it.
@@ -175,7 +182,8 @@ pub fn find_humps(scan: &Scan, floor: &Floor, peaks: &[FoundPeak]) -> Vec<Hump> 
         over.push(over[i] + usize::from(up));
     }
     let line = line_width_hz(scan, peaks, f.len() / 2);
-    let skirts = line_skirts(scan, &f, floor, peaks);
+    // the lines' skirts, worked out once a region is wide enough to be a hump
+    let mut skirts: Option<Vec<f64>> = None;
     let filled: Vec<bool> = (0..f.len())
         .map(|i| {
             let half = HUMP_WINDOW_WIDTHS * line_width_hz(scan, peaks, i).max(line.min(f64::MAX));
@@ -196,7 +204,13 @@ pub fn find_humps(scan: &Scan, floor: &Floor, peaks: &[FoundPeak]) -> Vec<Hump> 
             i += 1;
         }
         if f[i] - f[s] >= HUMP_MIN_WIDTHS * line_width_hz(scan, peaks, s)
-            && !lines_explain(&x, floor, &skirts, s, i)
+            && !lines_explain(
+                &x,
+                floor,
+                skirts.get_or_insert_with(|| line_skirts(scan, &f, floor, peaks)),
+                s,
+                i,
+            )
         {
             humps.push(hump_of(&f, &x, floor, s, i));
         }
@@ -248,8 +262,7 @@ fn line_skirts(scan: &Scan, f: &[f64], floor: &Floor, peaks: &[FoundPeak]) -> Ve
     for p in peaks {
         let line = line_width_hz(scan, peaks, p.index);
         let step = local_step(scan, p.index);
-        let ripple = step < FINE_GRID_SHARE * line && p.width_hz < RIPPLE_LINES * line;
-        if ripple
+        if is_ripple(scan, peaks, p)
             || p.width_hz > BROADBAND_WIDTH_RATIO * line
             || p.prominence_db < SKIRT_PROMINENCE_DB
         {

@@ -11,7 +11,7 @@ pub mod raster;
 pub mod refine;
 pub mod sieve;
 
-use crate::bandwidth::{FINE_GRID_SHARE, Hump, RIPPLE_LINES, line_width_hz, local_step};
+use crate::bandwidth::{Hump, is_ripple, line_width_hz, local_step};
 use crate::floor::Floor;
 use crate::peaks::FoundPeak;
 use crate::scan::Scan;
@@ -242,11 +242,7 @@ fn join_notched_plateaus(
     widths: &mut [f64],
 ) {
     let line_of = |p: &FoundPeak| line_width_hz(scan, peaks, p.index);
-    let part = |p: &FoundPeak| {
-        let line = line_of(p);
-        let fine = local_step(scan, p.index) < FINE_GRID_SHARE * line;
-        p.width_hz > BROAD_LINES * line || (fine && p.width_hz < RIPPLE_LINES * line)
-    };
+    let part = |p: &FoundPeak| p.width_hz > BROAD_LINES * line_of(p) || is_ripple(scan, peaks, p);
     let mut i = 0;
     while i < peaks.len() {
         if !part(&peaks[i]) {

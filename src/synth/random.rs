@@ -1387,8 +1387,8 @@ fn visible_lines(p: &Periodic, is_clock: bool, scene: &Scene) -> Vec<TruthLine> 
 /// Whether another source's resolved line within half the resolution distance of `freq_hz`
 /// (max(RBW, display step)), or a dithered harmonic whose plateau reaches that close, reads
 /// stronger than `level_dbuv`: the two show as one peak, at the stronger one, so the weaker is
-/// not a line of its own. `own_f0` / `own_carrier` name the line's
-/// own source, which is skipped.
+/// not a line of its own. `own_f0` / `own_carrier` name the line's own source, which is
+/// skipped.
 fn stronger_line_near(
     scene: &Scene,
     freq_hz: f64,
