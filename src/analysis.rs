@@ -314,7 +314,7 @@ pub fn analyze(scan: &Scan, ctx: &Context) -> Result<Analysis, crate::Error> {
         sizing.rbw_hz = rbw;
     }
     attribution::plan::size(&mut families, ctx.sources.as_ref(), conducted, &sizing)?;
-    let mut humps = explain_humps(humps, &peaks, &dut);
+    let mut humps = explain_humps(humps, &peaks, &found, &dut);
     let also_all = ctx
         .also
         .iter()
@@ -446,17 +446,20 @@ fn discriminate_peaks(peaks: &mut [Peak], found: &[FoundPeak], dut: &Scan, also:
     }
 }
 
-/// Each hump: the family whose harmonic it is (its member peak lies inside), else the likely
-/// source and the rescan that would resolve a comb hidden in it.
+/// Each hump: the family whose harmonic it is (the family of the peak that stands for its
+/// plateau, [`families::hump_parts`]; a steady line standing out of it is another
+/// oscillator's), else the likely source and the rescan that would resolve a comb hidden in it.
+/// `peaks` are made from `found`, one for one.
 fn explain_humps(
     mut humps: Vec<bandwidth::Hump>,
     peaks: &[Peak],
+    found: &[FoundPeak],
     dut: &Scan,
 ) -> Vec<bandwidth::Hump> {
     for h in &mut humps {
-        h.family = peaks
-            .iter()
-            .find(|p| p.family.is_some() && p.freq_hz >= h.start_hz && p.freq_hz <= h.stop_hz)
+        h.family = families::hump_parts(dut, found, h)
+            .plateau
+            .and_then(|i| peaks.get(i))
             .and_then(|p| p.family);
         if h.family.is_none() {
             h.likely_source = Some(
