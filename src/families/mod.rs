@@ -217,7 +217,7 @@ fn offered_lines(
         let width = h.stop_hz - h.start_hz;
         let line = line_width_hz(scan, peaks, peaks[top].index);
         free[top] = true;
-        lines[top].freq_hz = 0.5 * (h.start_hz + h.stop_hz);
+        lines[top].freq_hz = plateau_centre(scan, peaks, h, &parts.standing);
         lines[top].sigma_hz = 0.05 * width + 0.25 * line;
         lines[top].width_hz = width;
         widths[top] = width;
@@ -273,8 +273,60 @@ pub fn hump_parts(scan: &Scan, peaks: &[FoundPeak], h: &Hump) -> HumpParts {
     }
 }
 
+/// Centre of a hump's plateau: the power-weighted mean frequency of its points, where a point
+/// within a line width of a steady line standing on it takes the level of the nearest point
+/// before it that is not (another source's line, and the sidebands that may come with it,
+/// would pull the centre their way; the plateau goes on under it). A flat plateau's centre is
+/// its middle.
+fn plateau_centre(scan: &Scan, peaks: &[FoundPeak], h: &Hump, standing: &[usize]) -> f64 {
+    let middle = 0.5 * (h.start_hz + h.stop_hz);
+    if standing.is_empty() {
+        return middle;
+    }
+    let range = points_within(scan, h.start_hz, h.stop_hz);
+    let own: Vec<Option<f64>> = range
+        .clone()
+        .map(|k| {
+            let f = scan.freq_hz[k];
+            let near_line = standing.iter().any(|&i| {
+                (f - peaks[i].freq_hz).abs() <= line_width_hz(scan, peaks, peaks[i].index)
+            });
+            (!near_line).then_some(scan.level_dbuv[k])
+        })
+        .collect();
+    // a hole at the start takes the first level after it
+    let Some(mut held) = own.iter().flatten().next().copied() else {
+        return middle;
+    };
+    let (mut sum_w, mut sum_wf) = (0.0, 0.0);
+    for (k, level) in range.zip(own) {
+        held = level.unwrap_or(held);
+        let w = 10f64.powf(held / 10.0);
+        sum_w += w;
+        sum_wf += w * scan.freq_hz[k];
+    }
+    sum_wf / sum_w
+}
+
 /// Median trace level over the points from `lo` to `hi` (Hz); −∞ when none lies there.
 fn median_level(scan: &Scan, lo: f64, hi: f64) -> f64 {
+    let range = points_within(scan, lo, hi);
+    let mut levels: Vec<f64> = scan
+        .level_dbuv
+        .iter()
+        .skip(range.start)
+        .take(range.len())
+        .copied()
+        .collect();
+    if levels.is_empty() {
+        return f64::NEG_INFINITY;
+    }
+    let mid = levels.len() / 2;
+    *levels.select_nth_unstable_by(mid, f64::total_cmp).1
+}
+
+/// Indices of the points from `lo` to `hi` (Hz), both included.
+fn points_within(scan: &Scan, lo: f64, hi: f64) -> std::ops::Range<usize> {
     // the points lie in ascending frequency: the range is found by bisection
     let count_below = |limit: f64, inclusive: bool| {
         let before = |x: &f64| *x < limit || (inclusive && *x == limit);
@@ -284,18 +336,7 @@ fn median_level(scan: &Scan, lo: f64, hi: f64) -> f64 {
         }
     };
     let (a, b) = (count_below(lo, false), count_below(hi, true));
-    let mut levels: Vec<f64> = scan
-        .level_dbuv
-        .iter()
-        .skip(a)
-        .take(b.saturating_sub(a))
-        .copied()
-        .collect();
-    if levels.is_empty() {
-        return f64::NEG_INFINITY;
-    }
-    let mid = levels.len() / 2;
-    *levels.select_nth_unstable_by(mid, f64::total_cmp).1
+    a..b.max(a)
 }
 
 /// Level, dB over the median of a hump's trace, from which a steady line inside the hump is
@@ -1152,6 +1193,43 @@ mod tests {
         assert_eq!(free, vec![true; 4]);
     }
 
+    /// A trace from 0.9 to 1.3 MHz at 1 kHz steps with `level_of` each frequency, RBW 9 kHz.
+    fn hump_scan(level_of: impl Fn(f64) -> f64) -> Scan {
+        let f: Vec<f64> = (0..=400).map(|k| 0.9e6 + 1e3 * k as f64).collect();
+        let level: Vec<f64> = f.iter().map(|&f| level_of(f)).collect();
+        let meta = crate::scan::ScanMeta {
+            rbw_hz: Some(9e3),
+            ..Default::default()
+        };
+        Scan::new(f, level, meta).unwrap()
+    }
+
+    /// A peak of [`hump_scan`]'s trace at `top` with a −6 dB `width`.
+    fn piece_at_1khz(top: f64, width: f64, level: f64) -> FoundPeak {
+        FoundPeak {
+            index: ((top - 0.9e6) / 1e3).round() as usize,
+            left_hz: top - width / 2.0,
+            right_hz: top + width / 2.0,
+            width_hz: width,
+            ..peak(top, level)
+        }
+    }
+
+    /// A hump of the trace from `start_hz` to `stop_hz`.
+    fn hump_over(start_hz: f64, stop_hz: f64) -> Hump {
+        Hump {
+            start_hz,
+            stop_hz,
+            freq_hz: 0.5 * (start_hz + stop_hz),
+            level_dbuv: 50.0,
+            over_floor_db: 20.0,
+            family: None,
+            likely_source: None,
+            rescan: None,
+            seen_as: crate::bandwidth::HumpBasis::Trace,
+        }
+    }
+
     /// A hump offers one line for its plateau, but a steady line standing well out of it (a
     /// converter's harmonic on another converter's dithered plateau) is a line of its own, at
     /// its own frequency and with its own uncertainty: a carrier shows with the RBW filter's
@@ -1160,41 +1238,15 @@ mod tests {
     #[test]
     fn a_steady_line_standing_on_a_hump_is_its_own_line() {
         // 0.9-1.3 MHz at 1 kHz steps, RBW 9 kHz: a line is 10 kHz wide
-        let n = 400;
-        let f: Vec<f64> = (0..=n).map(|k| 0.9e6 + 1e3 * k as f64).collect();
-        let level: Vec<f64> = f
-            .iter()
-            .map(|&f| {
-                if (0.96e6..=1.06e6).contains(&f) {
-                    30.0
-                } else {
-                    10.0
-                }
-            })
-            .collect();
-        let meta = crate::scan::ScanMeta {
-            rbw_hz: Some(9e3),
-            ..Default::default()
-        };
-        let scan = Scan::new(f, level, meta).unwrap();
-        let piece = |top: f64, width: f64, level: f64| FoundPeak {
-            index: ((top - 0.9e6) / 1e3).round() as usize,
-            left_hz: top - width / 2.0,
-            right_hz: top + width / 2.0,
-            width_hz: width,
-            ..peak(top, level)
-        };
-        let hump = Hump {
-            start_hz: 0.96e6,
-            stop_hz: 1.06e6,
-            freq_hz: 1.0e6,
-            level_dbuv: 50.0,
-            over_floor_db: 20.0,
-            family: None,
-            likely_source: None,
-            rescan: None,
-            seen_as: crate::bandwidth::HumpBasis::Trace,
-        };
+        let scan = hump_scan(|f| {
+            if (0.96e6..=1.06e6).contains(&f) {
+                30.0
+            } else {
+                10.0
+            }
+        });
+        let piece = piece_at_1khz;
+        let hump = hump_over(0.96e6, 1.06e6);
         let offered = |standing: f64| {
             let peaks = [
                 piece(1.0e6, 10e3, standing), // a steady line on the plateau
@@ -1233,6 +1285,36 @@ mod tests {
             "{}",
             lines[0].freq_hz
         );
+    }
+
+    /// The plateau's line sits at the plateau's centre of power, not at the middle of a hump
+    /// that a steady line and its sidebands stretch: a dithered harmonic spreads its power
+    /// evenly over its sweep (METHODS §4), so its plateau's centroid is its centre frequency.
+    #[test]
+    fn a_line_standing_at_a_humps_edge_does_not_move_the_plateau() {
+        // 0.9-1.3 MHz at 1 kHz steps, RBW 9 kHz: a plateau at 40 dBuV over 0.96-1.02 MHz, a
+        // line at 1.05 MHz with sidebands at 25 dBuV from 1.02 to 1.06 MHz, one hump over both
+        let scan = hump_scan(|f| match f {
+            f if (0.96e6..=1.02e6).contains(&f) => 40.0,
+            f if (1.02e6..=1.06e6).contains(&f) => 25.0,
+            _ => 10.0,
+        });
+        let peaks = [
+            piece_at_1khz(0.99e6, 3e3, 41.0),
+            piece_at_1khz(1.05e6, 10e3, 60.0),
+        ];
+        let hump = hump_over(0.96e6, 1.06e6);
+        let (lines, free, _) = offered_lines(&scan, &peaks, std::slice::from_ref(&hump));
+        assert_eq!(free, vec![true, true]);
+        // power-weighted: 61 points at 10^4 around 0.99 MHz, 40 at 10^2.5 around 1.04 MHz
+        // (those under the line hold the sidebands' level): 0.9910 MHz; the hump's middle
+        // would be 1.01 MHz
+        assert!(
+            (lines[0].freq_hz - 0.9910e6).abs() < 500.0,
+            "{}",
+            lines[0].freq_hz
+        );
+        assert_eq!(lines[1].freq_hz, 1.05e6);
     }
 
     #[test]
