@@ -298,14 +298,20 @@ fn plateau_centre(scan: &Scan, peaks: &[FoundPeak], h: &Hump, standing: &[usize]
     let Some(mut held) = own.iter().flatten().next().copied() else {
         return middle;
     };
+    // powers relative to the highest level: no overflow whatever the unit's offset
+    let top = own
+        .iter()
+        .flatten()
+        .copied()
+        .fold(f64::NEG_INFINITY, f64::max);
     let (mut sum_w, mut sum_wf) = (0.0, 0.0);
     for (k, level) in range.zip(own) {
         held = level.unwrap_or(held);
-        let w = 10f64.powf(held / 10.0);
+        let w = 10f64.powf((held - top) / 10.0);
         sum_w += w;
         sum_wf += w * scan.freq_hz[k];
     }
-    sum_wf / sum_w
+    if sum_w > 0.0 { sum_wf / sum_w } else { middle }
 }
 
 /// Median trace level over the points from `lo` to `hi` (Hz); −∞ when none lies there.
@@ -1289,7 +1295,8 @@ mod tests {
 
     /// The plateau's line sits at the plateau's centre of power, not at the middle of a hump
     /// that a steady line and its sidebands stretch: a dithered harmonic spreads its power
-    /// evenly over its sweep (METHODS §4), so its plateau's centroid is its centre frequency.
+    /// evenly over its sweep (the spread-spectrum rule of METHODS §9, peak reduction
+    /// 10·log10(Δf_n/RBW), assumes it), so its plateau's centroid is its centre frequency.
     #[test]
     fn a_line_standing_at_a_humps_edge_does_not_move_the_plateau() {
         // 0.9-1.3 MHz at 1 kHz steps, RBW 9 kHz: a plateau at 40 dBuV over 0.96-1.02 MHz, a
