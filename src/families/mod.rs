@@ -317,32 +317,21 @@ fn plateau_centre(scan: &Scan, peaks: &[FoundPeak], h: &Hump, standing: &[usize]
 /// Median trace level over the points from `lo` to `hi` (Hz); −∞ when none lies there.
 fn median_level(scan: &Scan, lo: f64, hi: f64) -> f64 {
     let range = points_within(scan, lo, hi);
-    let mut levels: Vec<f64> = scan
-        .level_dbuv
-        .iter()
-        .skip(range.start)
-        .take(range.len())
-        .copied()
-        .collect();
-    if levels.is_empty() {
+    if range.is_empty() {
         return f64::NEG_INFINITY;
     }
-    let mid = levels.len() / 2;
-    *levels.select_nth_unstable_by(mid, f64::total_cmp).1
+    let mut levels: Vec<f64> = range.map(|k| scan.level_dbuv[k]).collect();
+    crate::floor::quantile_in_place(&mut levels, 0.5)
 }
 
-/// Indices of the points from `lo` to `hi` (Hz), both included.
+/// Indices of the points from `lo` to `hi` (Hz), both included (by bisection: the points lie
+/// in ascending frequency).
 fn points_within(scan: &Scan, lo: f64, hi: f64) -> std::ops::Range<usize> {
-    // the points lie in ascending frequency: the range is found by bisection
-    let count_below = |limit: f64, inclusive: bool| {
-        let before = |x: &f64| *x < limit || (inclusive && *x == limit);
-        match scan.freq_hz.as_slice() {
-            Some(f) => f.partition_point(before),
-            None => scan.freq_hz.iter().take_while(|x| before(x)).count(),
-        }
+    let Some(f) = scan.freq_hz.as_slice() else {
+        return 0..0;
     };
-    let (a, b) = (count_below(lo, false), count_below(hi, true));
-    a..b.max(a)
+    let a = f.partition_point(|&x| x < lo);
+    a..f.partition_point(|&x| x <= hi).max(a)
 }
 
 /// Level, dB over the median of a hump's trace, from which a steady line inside the hump is
