@@ -99,9 +99,11 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     if let Some((lo, hi)) = range_var("PEAKS") {
         for p in a.peaks.iter().filter(|p| (lo..=hi).contains(&p.freq_hz)) {
             println!(
-                "   peak {:>14.0} {:>7.1} dBuV margin {:>6} family {:?} n {:?}",
+                "   peak {:>14.0} {:>7.1} dBuV width {:>9.0} sig {:>5.1} margin {:>6} family {:?} n {:?}",
                 p.freq_hz,
                 p.level_dbuv,
+                p.width_hz,
+                p.significance_db,
                 p.limit_dbuv
                     .map_or("-".to_string(), |l| format!("{:.1}", l - p.level_dbuv)),
                 p.family,

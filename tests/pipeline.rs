@@ -1,5 +1,6 @@
 //! The library end to end on rendered scenes.
 
+use spurhound::attribution::kind::crystal_match;
 use spurhound::bandwidth::Nature;
 use spurhound::synth::{parse_scene, render};
 use spurhound::{Context, analyze};
@@ -149,4 +150,76 @@ fundamental_dbuv = 90.0
         f0.iter().any(|f| (f / 20e3 - 1.0).abs() < 1e-3),
         "families at {f0:?}"
     );
+}
+
+/// A radiated scene of `carriers` unrelated narrow carriers (30-300 MHz, 120 kHz RBW), drawn from a
+/// fixed linear congruential sequence so that no two sets of them form a comb by design, with
+/// an optional 40 MHz clock whose three odd harmonics (40, 120, 200 MHz) stand among them.
+fn cluttered_scene(carriers: usize, clock: bool) -> String {
+    let mut text = String::from(
+        r#"
+[scan]
+start_hz = 30e6
+stop_hz = 300e6
+points = 2701
+rbw_hz = 120e3
+seed = 11
+[floor]
+level_dbuv = 10.0
+"#,
+    );
+    let mut state: u64 = 12_345;
+    for _ in 0..carriers {
+        // the multiplier and increment of Knuth's MMIX generator
+        state = state
+            .wrapping_mul(6_364_136_223_846_793_005)
+            .wrapping_add(1_442_695_040_888_963_407);
+        let u = (state >> 11) as f64 / (1u64 << 53) as f64;
+        let v = ((state >> 3) & 0xff) as f64 / 255.0;
+        text.push_str(&format!(
+            "[[carrier]]\nfreq_hz = {:.0}\nlevel_dbuv = {:.1}\nam_depth = 0.0\n",
+            32e6 + u * 266e6,
+            30.0 + 12.0 * v
+        ));
+    }
+    if clock {
+        text.push_str(
+            "[[clock]]\nname = \"clock, 40 MHz\"\nf0_hz = 40.001e6\nedge_time_s = 1e-9\n\
+             fundamental_dbuv = 45.0\nmax_harmonic = 5\n",
+        );
+    }
+    text
+}
+
+/// Three harmonics of a clock among a hundred other lines are too few for a fundamental found
+/// anywhere, but enough for one at a standard crystal value named beforehand. Source: the
+/// crystal values of METHODS §10 (40 MHz) with a ±25 ppm oscillator error (common practice: a
+/// crystal within ±50 ppm); a 50 % clock has odd harmonics only, |sin(π·n/2)|/n (METHODS §5).
+#[test]
+fn three_harmonics_at_a_crystal_value_are_a_clock() {
+    let text = cluttered_scene(100, true);
+    let scan = render(&parse_scene(&text, "clock.toml").unwrap()).unwrap();
+    let a = analyze(&scan, &Context::default()).unwrap();
+    let f0: Vec<f64> = a.families.iter().map(|f| f.fundamental_hz).collect();
+    assert!(
+        f0.iter().any(|f| (f / 40e6 - 1.0).abs() < 2e-4),
+        "families at {f0:?}"
+    );
+}
+
+/// Two hundred such lines without the clock make no family at a crystal value: the smaller
+/// evidence a named value needs still asks for lines chance rarely puts there. (A general
+/// search false alarm elsewhere is another matter; this checks the crystal values only.)
+#[test]
+fn unrelated_lines_make_no_clock_at_a_crystal_value() {
+    let text = cluttered_scene(200, false);
+    let scan = render(&parse_scene(&text, "lines.toml").unwrap()).unwrap();
+    let a = analyze(&scan, &Context::default()).unwrap();
+    let at_crystals: Vec<f64> = a
+        .families
+        .iter()
+        .map(|f| f.fundamental_hz)
+        .filter(|&f| crystal_match(f).is_some())
+        .collect();
+    assert!(at_crystals.is_empty(), "families at {at_crystals:?}");
 }
