@@ -461,6 +461,7 @@ pub fn find_families(
         params,
         &narrow_lines,
         median_line,
+        (scan.freq_hz[0], scan.freq_hz[scan.freq_hz.len() - 1]),
     );
     merge_multiples(&mut found, &sieve, peaks, params.min_hit_ratio);
     let mut out: Vec<FamilyFit> = found
@@ -523,16 +524,20 @@ impl Claims<'_> {
     }
 }
 
-/// The chance under which a comb at a standard crystal value is a family, against the search's
-/// [`SieveParams::max_chance`] for a fundamental found anywhere (measured on seeds 1-600,
-/// recall / precision / top-1: without the search 0.732 / 0.891 / 0.721; 3e-4 0.744 / 0.891 /
-/// 0.731; 1e-3 0.748 / 0.890 / 0.738; 3e-3 0.748 / 0.887 / 0.736; 1e-2 without the other
-/// conditions 0.748 / 0.835 / 0.736).
-const CRYSTAL_CHANCE: f64 = 1e-3;
+/// The chance under which a comb at a standard crystal value is a family (its chance times the
+/// stretches of its length the scan holds), against the search's [`SieveParams::max_chance`]
+/// for a fundamental found anywhere (measured on seeds 1-600, recall / precision / top-1:
+/// without the search 0.729 / 0.911 / 0.726 and with it 0.746 / 0.909 / 0.738, the search's
+/// own limit at 2e-5 both times; counted over the whole scan and not per stretch, 1e-3 gives
+/// 0.746 / 0.909 / 0.738 as well but makes four combs at crystal values from forty scenes of
+/// a hundred unrelated lines, against two now).
+const CRYSTAL_CHANCE: f64 = 3e-3;
 
-/// A crystal's comb is searched for only this many line widths apart and more (measured on
-/// seeds 1-600: without the condition three 32.768 kHz combs of noise maxima and others'
-/// lines, 0.748 / 0.888 / 0.738; with it none).
+/// A crystal's comb is searched for only this many line widths apart and more: a finer comb
+/// catches a line in every few line widths, so each hit says little and noise maxima, which
+/// come about a line width apart, pass for harmonics (measured on seeds 1-600: without the
+/// condition two 32.768 kHz combs of noise maxima and others' lines, 0.746 / 0.907 / 0.738;
+/// with it none, 0.746 / 0.909 / 0.738).
 const CRYSTAL_MIN_LINES: f64 = 4.0;
 
 /// The clocks the general search leaves: a comb at a standard crystal value
@@ -560,6 +565,7 @@ fn crystal_families(
     params: &FamilyParams,
     narrow: &[bool],
     median_line: f64,
+    span: (f64, f64),
 ) {
     // only narrow lines are offered; the others are given back at the end
     let wide: Vec<usize> = (0..narrow.len())
@@ -575,7 +581,7 @@ fn crystal_families(
         let mut best: Option<(f64, Candidate)> = None;
         for &x in CRYSTALS_HZ.iter().filter(|&&x| x >= lowest) {
             for pattern in [Pattern::All, Pattern::OddOnly] {
-                let Some((chance, c)) = crystal_comb(sieve, params, x, pattern) else {
+                let Some((chance, c)) = crystal_comb(sieve, params, x, pattern, span) else {
                     continue;
                 };
                 if best.as_ref().is_none_or(|b| chance < b.0) {
@@ -598,9 +604,17 @@ fn crystal_comb(
     params: &FamilyParams,
     x: f64,
     pattern: Pattern,
+    span: (f64, f64),
 ) -> Option<(f64, Candidate)> {
+    // the run is the best stretch of the harmonics the scan holds: the chance of one stretch
+    // times the stretches of its length there
+    let in_scan = ((span.1 / x).floor() - (span.0 / x).ceil() + 1.0).max(1.0);
     let passes = |c: &Candidate| {
-        let chance = sieve.chance(c);
+        let (Some(first), Some(last)) = (c.hits.first(), c.hits.last()) else {
+            return None;
+        };
+        let stretches = (in_scan / f64::from(last.1 - first.1 + 1)).max(1.0);
+        let chance = sieve.chance(c) * stretches;
         (is_family(c, sieve, params) && chance < CRYSTAL_CHANCE).then_some(chance)
     };
     let sigma = 0.5 * CRYSTAL_MATCH * x;
