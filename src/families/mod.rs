@@ -869,9 +869,10 @@ const NULL_CHANCE: f64 = 0.001;
 /// harmonics near n = k/D sink under the threshold first (a flyback at D ≈ 0.3 loses about
 /// every third). For each D from 0.05 to 0.5 (in steps of 0.1/n_max, between 1e-4 and 0.005,
 /// so that the nulls move by at most a tenth of a harmonic at the highest slot n_max) the slots
-/// (hit or clearly absent) with |sin(π·n·D)| < [`NULL_SIN`] are the nulls; if the absent harmonics fell at
-/// random among the slots, the number of them in the nulls would follow the hypergeometric law.
-/// The D whose count is least likely so wins, when that chance, times the number of duties
+/// (hit or clearly absent) with |sin(π·n·D)| < [`NULL_SIN`] are the nulls; if the absent
+/// harmonics fell at random among the slots, the number of them in the nulls would follow the
+/// hypergeometric law. The D whose count is least likely so wins (the middle of a run of
+/// neighbouring duties with the same nulls), when that chance, times the number of duties
 /// tried, is under [`NULL_CHANCE`]; the absent harmonics in its nulls are then expected, not
 /// evidence against the family.
 ///
