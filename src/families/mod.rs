@@ -528,7 +528,7 @@ impl Claims<'_> {
 /// stretches of its length the scan holds), against the search's [`SieveParams::max_chance`]
 /// for a fundamental found anywhere (measured on seeds 1-600, recall / precision / top-1:
 /// without the search 0.729 / 0.911 / 0.726 and with it 0.746 / 0.909 / 0.738, the search's
-/// own limit at 2e-5 both times; counted over the whole scan and not per stretch, 1e-3 gives
+/// own limit at 2e-5 both times; the bare chance, without the stretches, under 1e-3 gives
 /// 0.746 / 0.909 / 0.738 as well but makes four combs at crystal values from forty scenes of
 /// a hundred unrelated lines, against two now).
 const CRYSTAL_CHANCE: f64 = 3e-3;

@@ -121,9 +121,11 @@ impl Default for SieveParams {
             miss_penalty: 0.6,
             tolerance_sigmas: 3.0,
             max_gap: 3,
-            // measured on seeds 1-600 with the searched chance, recall / precision / top-1:
-            // 1e-5 0.740 / 0.918 / 0.738, 2e-5 0.746 / 0.909 / 0.738, 3e-5 0.748 / 0.900 / 0.745,
-            // 1e-4 0.756 / 0.870 / 0.740
+            // measured on seeds 1-600 with the searched chance (and the crystal search at its
+            // first setting, a bare chance under 1e-3), recall / precision / top-1: 1e-5
+            // 0.740 / 0.918 / 0.738, 2e-5 0.746 / 0.909 / 0.738, 3e-5 0.748 / 0.900 / 0.745,
+            // 1e-4 0.756 / 0.870 / 0.740; the crystal search's present setting gives 2e-5 the
+            // same figures
             max_chance: 2e-5,
             refined: 32,
         }
